@@ -1,0 +1,38 @@
+/* cli/cli.h - what the command files share; only the CLI prints or exits. */
+#ifndef FF_CLI_H
+#define FF_CLI_H
+
+#include <stdio.h>
+#include "frostfit/diag.h"
+
+/* Every command: argv[0] is the command name; returns the exit status. */
+int ff_cmd_inspect(int argc, char **argv);
+int ff_cmd_point(int argc, char **argv);
+int ff_cmd_series(int argc, char **argv);
+int ff_cmd_mass(int argc, char **argv);
+int ff_cmd_solvents(int argc, char **argv);
+int ff_cmd_simulate(int argc, char **argv);
+
+/* Prints "frostfit: <diag>" on stderr and returns d->status. */
+int ff_cli_fail(const struct ff_diag *d);
+
+/* Prints "frostfit: <msg>" on stderr (printf style). */
+void ff_cli_msg(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
+
+/* Prints a usage error and the hint to run --help; returns FF_EUSAGE. */
+int ff_cli_usage(const char *cmd, const char *fmt, ...)
+  __attribute__((format(printf, 2, 3)));
+
+/*
+ * Parses a number given on the command line (C locale, whole string).
+ * Returns 0, or -1 after printing a usage error naming opt.
+ */
+int ff_cli_number(const char *cmd, const char *opt, const char *s, double *out);
+
+/* Flushes stdout; returns FF_EIO (after saying so) when the write failed. */
+int ff_cli_finish(int status);
+
+/* The folder that holds solvents.csv etc.; see DEVELOPERS.md. */
+const char *ff_cli_datadir(void);
+
+#endif /* FF_CLI_H */
