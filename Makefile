@@ -104,4 +104,7 @@ install: $(BIN)
 clean:
 	rm -rf build build-* frostfit
 
+# Optional fragments (fuzzing, speed benchmarks) live in mk/.
+-include mk/*.mk
+
 -include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(TEST_OBJ:.o=.d)
