@@ -33,7 +33,7 @@
 #endif
 
 #define MAX_EXACT_INT (UINT64_C(1) << 53)
-#define MAX_SIG_DIGITS 19    /* 10^19 - 1 < 2^64: no overflow in uint64 */
+#define MAX_SIG_DIGITS 19u   /* 10^19 - 1 < 2^64: no overflow in uint64 */
 #define EXP_SATURATE 100000  /* far beyond any double; keeps int arithmetic safe */
 #define STACK_BUF 256
 
@@ -60,9 +60,9 @@ static int is_blank(char c)
 struct scan {
   const char *start, *end;  /* trimmed text, sign included */
   int neg;
-  uint64_t w;               /* first significant digits, as an integer */
-  int n_sig;                /* significant digits seen (may exceed 19) */
-  long e10;                 /* value = w * 10^e10 when n_sig <= 19 */
+  uint64_t w;               /* the mantissa digits as an integer ... */
+  size_t n_digits;          /* ... valid only when these are <= 19 */
+  long e10;                 /* value = w * 10^e10 */
 };
 
 /* Reads the digits of an exponent; saturates so huge ones stay huge. */
@@ -87,42 +87,51 @@ static const char *scan_exponent(const char *p, const char *end, long *e)
   return p;
 }
 
-/* Checks the grammar and collects the significand. Returns FF_NUM_*. */
+/* Accumulates a run of digits into *w (wrapping harmlessly past 19 digits:
+ * the caller then ignores w). Returns the first non-digit. */
+static const char *scan_digits(const char *p, const char *end, uint64_t *w)
+{
+  uint64_t v = *w;
+  for (; p < end; p++) {
+    unsigned d = (unsigned)((unsigned char)*p - '0');
+    if (d > 9)
+      break;
+    v = v * 10 + d;
+  }
+  *w = v;
+  return p;
+}
+
+/* Checks the grammar and collects the significand. Returns FF_NUM_*.
+ * Leading zeros count as digits here: numbers with more than 19 digits in
+ * all simply take the library path, which is exact for any length. */
 static int scan_number(const char *p, const char *end, char decimal,
                        struct scan *sc)
 {
-  int n_digits = 0, seen_mark = 0;
+  const char *q;
+  size_t n_frac = 0;
 
   sc->start = p;
   sc->end = end;
   sc->neg = 0;
   sc->w = 0;
-  sc->n_sig = 0;
   sc->e10 = 0;
 
   if (*p == '+' || *p == '-')
     sc->neg = (*p++ == '-');
-  for (; p < end; p++) {
-    unsigned d = (unsigned)((unsigned char)*p - '0');
-    if (d <= 9) {
-      n_digits++;
-      if (sc->w != 0 || d != 0) {
-        /* Beyond 19 digits the fast path is off, e10 no longer matters. */
-        if (++sc->n_sig <= MAX_SIG_DIGITS)
-          sc->w = sc->w * 10 + d;
-      }
-      /* Every digit kept after the mark divides by ten; a leading zero
-       * after the mark (w still 0) does too. */
-      if (seen_mark && sc->n_sig <= MAX_SIG_DIGITS)
-        sc->e10--;
-    } else if (*p == decimal && !seen_mark) {
-      seen_mark = 1;
-    } else {
-      break;
-    }
+  q = p;
+  p = scan_digits(p, end, &sc->w);
+  sc->n_digits = (size_t)(p - q);
+  if (p < end && *p == decimal) {
+    q = ++p;
+    p = scan_digits(p, end, &sc->w);
+    n_frac = (size_t)(p - q);
+    sc->n_digits += n_frac;
   }
-  if (n_digits == 0)
+  if (sc->n_digits == 0)
     return FF_NUM_SYNTAX;      /* "", "-", ".", "e5", "inf", "nan" */
+  if (n_frac <= MAX_SIG_DIGITS)
+    sc->e10 = -(long)n_frac;   /* else the fast path is off anyway */
   if (p < end && (*p == 'e' || *p == 'E')) {
     long e = 0;
     p = scan_exponent(p + 1, end, &e);
@@ -139,7 +148,7 @@ static int fast_value(const struct scan *sc, double *v)
   uint64_t w = sc->w;
   long e = sc->e10;
 
-  if (!FAST_PATH || sc->n_sig > MAX_SIG_DIGITS || w > MAX_EXACT_INT)
+  if (!FAST_PATH || sc->n_digits > MAX_SIG_DIGITS || w > MAX_EXACT_INT)
     return 0;
   if (e >= 0 && e <= 22) {
     *v = (double)w * pow10_exact[e];
@@ -219,7 +228,7 @@ int ff_parse_double(const char *s, size_t len, char decimal, double *out)
   st = scan_number(p, end, decimal, &sc);
   if (st != FF_NUM_OK)
     return st;
-  if (sc.w == 0 && sc.n_sig == 0) {
+  if (sc.w == 0 && sc.n_digits <= MAX_SIG_DIGITS) {
     *out = sc.neg ? -0.0 : 0.0; /* "0", "-0.000", "0e999999" */
     return FF_NUM_OK;
   }

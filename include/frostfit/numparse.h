@@ -29,7 +29,7 @@ enum ff_num_status {
  * themselves what counts as a missing-value marker.
  *
  * The result is bit for bit what strtod() gives under the "C" locale
- * (round to nearest): an exact fast path handles up to 19 significant
+ * (round to nearest): an exact fast path handles up to 19 mantissa
  * digits whose value fits in 53 bits with a power of ten up to 1e22
  * (one correctly rounded multiply or divide); everything else goes to the
  * C library's strtod_l with a "C" locale object. A value that underflows
