@@ -69,7 +69,8 @@ struct ff_regress_opts {
   double confidence;       /* level of the Student-t intervals, (0, 1) */
   int virial_terms;        /* DH models: 1 = B m, 2 = B m + C m^2,
                               0 = choose by F-test (C kept when p < f_alpha) */
-  int pairing_b;           /* ion pairing: also fit a B m term (0/1) */
+  int pairing_b;           /* ion pairing: also fit a B m term (0/1);
+                              default 1 (K_A alone rarely fits real data) */
   enum ff_regress_cov cov;
   double f_alpha;          /* significance level of the F-tests */
   double k_a_start_kg_mol; /* starting value of K_A */
@@ -79,7 +80,7 @@ struct ff_regress_opts {
 };
 #define FF_REGRESS_OPTS_DEFAULT                                          \
   { .models = FF_REGRESS_ALL, .b_kg_mol = 1.2, .confidence = 0.95,       \
-    .virial_terms = 0, .pairing_b = 0, .cov = FF_COV_AUTO,               \
+    .virial_terms = 0, .pairing_b = 1, .cov = FF_COV_AUTO,               \
     .f_alpha = 0.05, .k_a_start_kg_mol = 50.0, .k2_start_kg_mol = 1.0,   \
     .max_iter = 200, .xtol = 1e-10 }
 

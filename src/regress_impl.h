@@ -1,0 +1,54 @@
+/* regress_impl.h - private helpers shared by regress_models.c and
+ * regress_stats.c (regression stage). Not part of the public API. */
+#ifndef FF_REGRESS_IMPL_H
+#define FF_REGRESS_IMPL_H
+
+#include <stddef.h>
+#include "frostfit/regress.h"
+
+/* Smallest reciprocal condition number accepted for a linear design. */
+#define FF_RG_RCOND_MIN 1e-12
+/* Two molalities closer than this relative gap count as one. */
+#define FF_RG_DISTINCT_REL 1e-9
+
+/* Student t quantile for a two-sided interval at level conf. */
+double ff_rg_t_quantile(double conf, size_t dof);
+
+/* Number of distinct values in x[0..n) (relative gap FF_RG_DISTINCT_REL). */
+size_t ff_rg_distinct(const double *x, size_t n);
+
+/*
+ * Weighted linear least squares y = X par, X row-major n x p (p <=
+ * FF_REGRESS_MAXPAR), weights 1/u^2 (u NULL: 1). On success fills par, the
+ * unscaled covariance (X'WX)^-1 into cov, chi2 and returns 0; on a singular
+ * or ill-conditioned design returns -1 with the reason in why.
+ */
+int ff_rg_wlinear(const double *X, const double *y, const double *u, size_t n,
+                  size_t p, double *par,
+                  double cov[FF_REGRESS_MAXPAR][FF_REGRESS_MAXPAR],
+                  double *chi2, char *why, size_t nwhy);
+
+/*
+ * From f->par, the unscaled f->cov, f->chi2, f->sumsq, f->n, f->npar:
+ * dof, chi2_red, cov scaling per o->cov (always scaled when !weighted),
+ * se, t, CIs, AIC and AICc. Returns 0, or -1 when a result is not finite.
+ */
+int ff_rg_finish(struct ff_fit *f, int weighted,
+                 const struct ff_regress_opts *o);
+
+/* Marks f failed (FF_EUNTRUSTED) with a formatted reason, copies it to d,
+ * zeroes the numbers and frees residuals. Returns FF_EUNTRUSTED. */
+int ff_rg_fail(struct ff_fit *f, struct ff_diag *d, const char *fmt, ...)
+  __attribute__((format(printf, 3, 4)));
+
+/* F-test of restricted r nested in full f (both FF_OK, same data). */
+void ff_rg_ftest(const struct ff_fit *r, const struct ff_fit *full,
+                 double f_alpha, struct ff_ftest *out);
+
+/* Checks the solute input; FF_OK or FF_EINPUT with the reason in d. */
+int ff_rg_check_input(const struct ff_regress_input *in, struct ff_diag *d);
+
+/* Checks options; FF_OK or FF_EUSAGE. */
+int ff_rg_check_opts(const struct ff_regress_opts *o, struct ff_diag *d);
+
+#endif /* FF_REGRESS_IMPL_H */
