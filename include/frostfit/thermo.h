@@ -22,7 +22,7 @@
 #define FF_WATER_T0_K 273.15            /* ice point used by the linear law */
 #define FF_WATER_DH_FUS_J_MOL 6006.77   /* h_liq - h_ice at the melting point */
 #define FF_WATER_DCP_FUS_J_MOL_K 38.24  /* cp_liq - cp_ice at 273.15 K */
-#define FF_WATER_FROZEN_PER_K 0.01266   /* cp_liq / L_fus = 4.2194/333.43 [1/K] */
+#define FF_WATER_FROZEN_PER_K (4.2194 / 333.4265) /* cp_liq/L_fus = 0.012655 [1/K] */
 
 /* What the exact freezing-temperature relation needs of a solvent. */
 struct ff_fusion {
