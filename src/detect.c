@@ -1,0 +1,762 @@
+/* detect.c - cooling curve to freeze events: segmentation, the choice of
+ * method and the event record; detect stage, after import. The readings
+ * themselves are in detect_methods.c; docs/methods/detection.md explains. */
+#include "frostfit/detect.h"
+#include "detect_impl.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <strings.h>
+
+/* Fewest points a channel must have to be analysed at all. */
+#define MIN_POINTS 20
+/* Liquid cooling looked at before a candidate nucleation, s: it must fall. */
+#define PRE_WINDOW_S 30.0
+/* Window of the slope-break search (no supercooling), s. */
+#define BREAK_WINDOW_S 30.0
+/* Slope before a break must exceed the slope after by this factor: an
+ * exponential approach to the bath with tau > 15 s never does over 30 s. */
+#define BREAK_RATIO 8.0
+/* A thaw is a rise of this much above the lowest point of the branch, K. */
+#define THAW_RISE_K 0.1
+/* Melted again: this far above the freezing plateau, K. */
+#define MELT_MARGIN_K 0.2
+
+/* Water, for the model when no solvent is given: IAPWS-95/06 values at
+ * 273.15 K (REFERENCES.md section 1.1, "IAPWS-95/06 via python3-iapws,
+ * computed"); the same numbers as the water row of datasets/solvents.csv. */
+#define WATER_CP_LIQ 4.2194
+#define WATER_CP_SOL 2.0967
+#define WATER_DH_FUS 6006.77
+#define WATER_M 18.015268
+
+static const char *const method_names[FF_METHOD_COUNT] = {
+  "auto", "plateau", "peak", "extrapolate", "intersect", "break", "model"
+};
+
+const char *ff_method_name(enum ff_method m)
+{
+  return (unsigned)m < FF_METHOD_COUNT ? method_names[m] : "?";
+}
+
+int ff_method_parse(const char *s, enum ff_method *out)
+{
+  for (int m = 0; m < FF_METHOD_COUNT; m++)
+    if (strcasecmp(s, method_names[m]) == 0) {
+      *out = (enum ff_method)m;
+      return 0;
+    }
+  return -1;
+}
+
+static const struct {
+  unsigned bit;
+  const char *name, *text;
+} flag_info[FF_FLAG_COUNT] = {
+  { FF_FLAG_NO_NUCLEATION, "no_nucleation",
+    "no supercooling seen: the freezing point is the slope break" },
+  { FF_FLAG_BRANCH_SHORT, "branch_short",
+    "freezing branch too short to fit" },
+  { FF_FLAG_NOISY, "noisy", "noisy readings (above 20 mK)" },
+  { FF_FLAG_BATH_DRIFT, "bath_drift",
+    "liquid cooling does not follow Newton's law: the bath drifts or the "
+    "stirring changed" },
+  { FF_FLAG_LAG_UNSETTLED, "lag_unsettled",
+    "the probe was still settling over much of the freezing branch" },
+  { FF_FLAG_AT_END, "at_end", "the file ends during the freeze" },
+  { FF_FLAG_LIQUID_SHORT, "liquid_short",
+    "too little liquid cooling before nucleation for the Newton fit" },
+  { FF_FLAG_FIT_FAILED, "fit_failed", "the chosen fit failed" },
+  { FF_FLAG_METHODS_DISAGREE, "methods_disagree",
+    "the methods disagree beyond their uncertainties" },
+  { FF_FLAG_PEAK_ONLY, "peak_only",
+    "only the maximum after recalescence could be read; it sits low" },
+  { FF_FLAG_COARSE, "coarse",
+    "thermometer resolution coarse (50 mK or more)" },
+};
+
+const char *ff_flag_name(unsigned flag)
+{
+  for (int i = 0; i < FF_FLAG_COUNT; i++)
+    if (flag_info[i].bit == flag)
+      return flag_info[i].name;
+  return NULL;
+}
+
+const char *ff_flag_text(unsigned flag)
+{
+  for (int i = 0; i < FF_FLAG_COUNT; i++)
+    if (flag_info[i].bit == flag)
+      return flag_info[i].text;
+  return NULL;
+}
+
+void ff_event_list_release(struct ff_event_list *l)
+{
+  if (l == NULL)
+    return;
+  free(l->v);
+  memset(l, 0, sizeof *l);
+}
+
+double ff_event_eval_liquid(const struct ff_event *e, double t)
+{
+  const struct ff_liquid_fit *l = &e->liquid;
+
+  if (l->kind == 1)
+    return l->bath_c + (l->t0_c - l->bath_c) * exp(-(t - l->t_ref_s)
+                                                    / l->tau_s);
+  return ff_event_eval_liquid_line(e, t);
+}
+
+double ff_event_eval_liquid_line(const struct ff_event *e, double t)
+{
+  const struct ff_liquid_fit *l = &e->liquid_line;
+
+  if (l->kind != 2)
+    return NAN;
+  return l->t0_c + l->slope_k_s * (t - l->t_ref_s);
+}
+
+double ff_event_eval_branch(const struct ff_event *e, double t)
+{
+  const struct ff_branch_fit *b = &e->branch;
+  double s = t - b->t_ref_s;
+
+  if (!b->ok)
+    return NAN;
+  return b->c[0] + b->c[1] * s + (b->order > 1 ? b->c[2] * s * s : 0.0);
+}
+
+/* ---- the channel ------------------------------------------------------ */
+
+size_t dd_index_at(const struct dctx *c, double t_s)
+{
+  size_t lo = 0, hi = c->n;
+
+  while (lo < hi) {            /* first index with t >= t_s */
+    size_t mid = lo + (hi - lo) / 2;
+    if (c->t[mid] < t_s)
+      lo = mid + 1;
+    else
+      hi = mid;
+  }
+  return lo < c->n ? lo : c->n - 1;
+}
+
+static int check_input(const double *t, const double *y, size_t n,
+                       struct ff_diag *d)
+{
+  for (size_t i = 0; i < n; i++) {
+    if (!isfinite(t[i]) || !isfinite(y[i]))
+      return ff_diag_set(d, FF_EINPUT, NULL, "reading %zu is not a finite "
+                         "number (compact missing values first)", i + 1);
+    if (i > 0 && !(t[i] > t[i - 1]))
+      return ff_diag_set(d, FF_EINPUT, NULL, "time does not increase at "
+                         "reading %zu (%.6g s after %.6g s)", i + 1, t[i],
+                         t[i - 1]);
+  }
+  return FF_OK;
+}
+
+/*
+ * Noise of one reading from second differences (robust to the signal's
+ * slow curvature and to the few jumps of recalescence): for white noise
+ * var(y[i+1] - 2 y[i] + y[i-1]) = 6 sigma^2; MAD * 1.4826 estimates sd.
+ * Resolution: when many successive readings repeat exactly, the data are
+ * quantised and the smallest step seen is the resolution.
+ */
+static int estimate_noise(struct dctx *c)
+{
+  size_t n = c->n, zeros = 0, m = 0;
+  double *v = malloc(n * sizeof *v), step = INFINITY;
+
+  if (v == NULL)
+    return -1;
+  for (size_t i = 1; i + 1 < n; i++)
+    v[m++] = fabs(c->y[i + 1] - 2.0 * c->y[i] + c->y[i - 1]);
+  c->sigma = 1.4826 * dd_median(v, m) / sqrt(6.0);
+  for (size_t i = 1; i < n; i++) {
+    double s = fabs(c->y[i] - c->y[i - 1]);
+    if (!(s > 0.0))
+      zeros++;
+    else if (s < step)
+      step = s;
+    v[i - 1] = c->t[i] - c->t[i - 1];
+  }
+  c->dt = dd_median(v, n - 1);
+  free(v);
+  if (c->p->resolution_k > 0.0)
+    c->res = c->p->resolution_k;
+  else
+    c->res = (zeros > n / 5 && isfinite(step)) ? step : 0.0;
+  /* Quantisation alone leaves a rectangular error of sd res/sqrt(12). */
+  if (c->sigma < c->res / sqrt(12.0))
+    c->sigma = c->res / sqrt(12.0);
+  if (!(c->sigma > 0.0))
+    c->sigma = 1e-6;           /* a perfect curve: keep ratios finite */
+  return 0;
+}
+
+static size_t half_width(const struct dctx *c)
+{
+  double h = 2.0 / c->dt;     /* about +-2 s */
+
+  if (h < 1.0)
+    return 1;
+  return h > 10.0 ? 10 : (size_t)(h + 0.5);
+}
+
+/* Centred moving average: no phase shift, so times are not moved. */
+static int smooth(struct dctx *c)
+{
+  size_t h = half_width(c);
+
+  c->ys = malloc(c->n * sizeof *c->ys);
+  if (c->ys == NULL)
+    return -1;
+  for (size_t i = 0; i < c->n; i++) {
+    size_t a = i > h ? i - h : 0, b = i + h + 1 < c->n ? i + h + 1 : c->n;
+    double s = 0.0;
+    for (size_t j = a; j < b; j++)
+      s += c->y[j];
+    c->ys[i] = s / (double)(b - a);
+  }
+  return 0;
+}
+
+static int push(struct ff_event_list *l, const struct ff_event *e)
+{
+  if (l->n == l->cap) {
+    size_t cap = l->cap ? 2 * l->cap : 4;
+    struct ff_event *v = realloc(l->v, cap * sizeof *v);
+    if (v == NULL)
+      return -1;
+    l->v = v;
+    l->cap = cap;
+  }
+  l->v[l->n++] = *e;
+  return 0;
+}
+
+/* A candidate nucleation: the smallest rise counted. */
+static double rise_threshold(const struct dctx *c)
+{
+  double s = c->p->min_rise_sigma * c->sigma
+             / sqrt(2.0 * (double)half_width(c) + 1.0);
+
+  return fmax(c->p->min_supercool_k, fmax(s, 3.0 * c->res));
+}
+
+/* Index of the lowest smoothed point before a thaw rise, scanning from i;
+ * *thaw = 1 when a thaw was found, 0 when the file ended first. */
+static size_t branch_end(const struct dctx *c, size_t i, double rise,
+                         int *thaw)
+{
+  size_t rm = i;
+  double lim = fmax(rise, THAW_RISE_K);
+
+  *thaw = 0;
+  for (size_t k = i; k < c->n; k++) {
+    if (c->ys[k] < c->ys[rm])
+      rm = k;
+    if (c->ys[k] > c->ys[rm] + lim) {
+      *thaw = 1;
+      return rm + 1;
+    }
+  }
+  return c->n;
+}
+
+/* First index at or after i where the sample has melted again. */
+static size_t melted(const struct dctx *c, size_t i, double level)
+{
+  for (size_t k = i; k < c->n; k++)
+    if (c->ys[k] > level)
+      return k;
+  return c->n;
+}
+
+/* Liquid fits over [lw0, lw1): Newton (kind 1) and the textbook line over
+ * its last minute (kind 2). */
+static void fit_liquid(const struct dctx *c, struct ff_event *e, size_t lw0,
+                       size_t lw1)
+{
+  double span, c0, c1, cov[3], rms, skip;
+  size_t a;
+
+  if (lw1 <= lw0 + 3) {
+    e->flags |= FF_FLAG_LIQUID_SHORT;
+    return;
+  }
+  span = c->t[lw1 - 1] - c->t[lw0];
+  /* The start of cooling carries the probe's and the tube's transients
+   * (and the rounded turn from warming): skip a tenth, at least 10 s. */
+  skip = fmax(10.0, 0.1 * span);
+  a = dd_index_at(c, c->t[lw0] + skip);
+  if (span < c->p->min_liquid_s || a + 3 >= lw1)
+    e->flags |= FF_FLAG_LIQUID_SHORT;
+  else if (dd_newton(c, a, lw1, &e->liquid) != 0)
+    e->flags |= FF_FLAG_LIQUID_SHORT;
+  else if (e->liquid.rms_k > 3.0 * c->sigma + c->res)
+    e->flags |= FF_FLAG_BATH_DRIFT;
+  a = dd_index_at(c, c->t[lw1 - 1] - 60.0);
+  if (a < lw0)
+    a = lw0;
+  if (lw1 >= a + 3 && dd_line(c->t, c->y, a, lw1, c->t[lw1 - 1], &c0, &c1,
+                              cov, &rms) == 0) {
+    e->liquid_line.kind = 2;
+    e->liquid_line.t_ref_s = c->t[lw1 - 1];
+    e->liquid_line.t0_c = c0;
+    e->liquid_line.slope_k_s = c1;
+    e->liquid_line.start_s = c->t[a];
+    e->liquid_line.end_s = c->t[lw1 - 1];
+    e->liquid_line.rms_k = rms;
+  }
+}
+
+static void choose(const struct dctx *c, struct ff_event *e)
+{
+  const struct ff_detect_params *p = c->p;
+  enum ff_method m = p->method;
+  const struct ff_estimate *es;
+
+  if (m == FF_METHOD_AUTO) {
+    if (e->flags & FF_FLAG_NO_NUCLEATION) {
+      m = FF_METHOD_BREAK;
+      snprintf(e->method_reason, sizeof e->method_reason, "no supercooling "
+               "seen: two straight segments with a fitted breakpoint");
+    } else if (e->est[FF_METHOD_MODEL].ok) {
+      m = FF_METHOD_MODEL;
+      snprintf(e->method_reason, sizeof e->method_reason, "liquid branch "
+               "fits Newton cooling (bath %.2f C, tau %.0f s): the energy "
+               "balance gives the frozen fraction, branch taken to zero ice",
+               e->liquid.bath_c, e->liquid.tau_s);
+    } else if (e->est[FF_METHOD_PLATEAU].ok) {
+      m = FF_METHOD_PLATEAU;
+      snprintf(e->method_reason, sizeof e->method_reason, "flat branch after "
+               "recalescence, no Newton fit of the liquid branch: plateau "
+               "level");
+    } else if (e->est[FF_METHOD_EXTRAPOLATE].ok) {
+      m = FF_METHOD_EXTRAPOLATE;
+      snprintf(e->method_reason, sizeof e->method_reason, "no Newton fit of "
+               "the liquid branch: freezing branch taken back to the "
+               "nucleation instant");
+    } else {
+      m = FF_METHOD_PEAK;
+      e->flags |= FF_FLAG_PEAK_ONLY;
+      snprintf(e->method_reason, sizeof e->method_reason, "nothing better "
+               "possible: maximum after recalescence (reads low)");
+    }
+  } else {
+    snprintf(e->method_reason, sizeof e->method_reason, "requested");
+  }
+  e->method = m;
+  es = &e->est[m];
+  e->trusted = 1;
+  e->status_reason[0] = '\0';
+  if (!es->ok) {
+    e->trusted = 0;
+    e->flags |= FF_FLAG_FIT_FAILED;
+    snprintf(e->status_reason, sizeof e->status_reason, "%s: %s",
+             ff_method_name(m), es->why);
+    e->freezing_point_c = NAN;
+    e->u_freezing_point_k = NAN;
+    return;
+  }
+  e->freezing_point_c = es->value_c;
+  e->u_resolution_k = c->res / (2.0 * sqrt(3.0));
+  if (m == FF_METHOD_PEAK || m == FF_METHOD_PLATEAU) {
+    e->u_noise_k = es->u_k;
+    e->u_fit_k = 0.0;
+  } else {
+    e->u_fit_k = es->u_k;   /* noise enters through the fit's residuals */
+    e->u_noise_k = 0.0;
+  }
+  e->u_method_k = 0.0;
+  e->u_freezing_point_k = sqrt(e->u_fit_k * e->u_fit_k
+                               + e->u_noise_k * e->u_noise_k
+                               + e->u_resolution_k * e->u_resolution_k
+                               + e->u_method_k * e->u_method_k);
+  if (e->flags & FF_FLAG_BRANCH_SHORT) {
+    e->trusted = 0;
+    snprintf(e->status_reason, sizeof e->status_reason, "%s",
+             (e->flags & FF_FLAG_AT_END)
+               ? "the file ends before the freezing branch can be fitted"
+               : "freezing branch too short to fit");
+  } else if (e->flags & FF_FLAG_PEAK_ONLY) {
+    e->trusted = 0;
+    snprintf(e->status_reason, sizeof e->status_reason, "only the maximum "
+             "after recalescence is available, and it reads low");
+  }
+  if (e->flags & FF_FLAG_NO_NUCLEATION)
+    e->supercooling_k = 0.0;
+  else
+    e->supercooling_k = e->freezing_point_c - e->t_min_c;
+}
+
+/* Marks disagreement when two sound readings differ beyond 3 combined u
+ * plus a resolution step (plateau vs model for a pure solvent). */
+static void cross_check(const struct dctx *c, struct ff_event *e)
+{
+  const struct ff_estimate *a = &e->est[FF_METHOD_MODEL],
+                           *b = &e->est[FF_METHOD_PLATEAU];
+
+  if (a->ok && b->ok
+      && fabs(a->value_c - b->value_c) > 3.0 * hypot(a->u_k, b->u_k) + c->res)
+    e->flags |= FF_FLAG_METHODS_DISAGREE;
+}
+
+/* All readings of one event whose branch is [b0, b_end). */
+static void read_event(const struct dctx *c, struct ff_event *e, size_t s0,
+                       size_t b0, size_t b_end)
+{
+  size_t pe = dd_index_at(c, c->t[b0] + c->p->max_branch_s);
+
+  if (pe < b_end)
+    b_end = pe + 1 > b_end ? b_end : pe + 1;
+  (void)pe;
+  dd_plateau(c, e, b0, b_end);
+  dd_extrapolate(c, e, b0, b_end);
+  dd_intersect(c, e, b0, b_end);
+  (void)s0;
+}
+
+static void init_event(struct ff_event *e, unsigned cycle, double res)
+{
+  memset(e, 0, sizeof *e);
+  e->cycle = cycle;
+  e->freezing_point_c = e->u_freezing_point_k = NAN;
+  e->frozen_fraction = NAN;
+  e->break_time_s = NAN;
+  e->model_tf0_c = e->model_delta_k = NAN;
+  e->freezing_branch_slope_k_s = NAN;
+  e->resolution_k = res;
+  for (int m = 0; m < FF_METHOD_COUNT; m++) {
+    e->est[m].value_c = e->est[m].u_k = NAN;
+    snprintf(e->est[m].why, sizeof e->est[m].why, "not computed");
+  }
+}
+
+/* One recalescence: minimum at m, peak at pk, the segment began at seg0. */
+static void recalescence_event(const struct dctx *c, struct ff_event *e,
+                               size_t seg0, size_t m, size_t pk,
+                               size_t b_end, int thaw)
+{
+  const struct ff_detect_params *p = c->p;
+  size_t h = half_width(c), lw0 = seg0, lw1, b0, s0, mb_end;
+  double settle, tmin = c->y[m];
+
+  e->start_s = c->t[seg0];
+  e->end_s = c->t[b_end - 1];
+  e->noise_k = c->sigma;
+  /* The raw minimum near the smoothed one. */
+  for (size_t k = m > h ? m - h : 0; k <= m + h && k < c->n; k++)
+    if (c->y[k] < tmin) {
+      tmin = c->y[k];
+      m = k;
+    }
+  e->nucleation_time_s = c->t[m];
+  e->t_min_c = tmin;
+  e->peak_c = c->ys[pk];
+  e->peak_time_s = c->t[pk];
+  e->recalescence_rise_k = e->peak_c - e->t_min_c;
+  e->est[FF_METHOD_PEAK].ok = 1;
+  e->est[FF_METHOD_PEAK].value_c = e->peak_c;
+  e->est[FF_METHOD_PEAK].u_k = c->sigma / sqrt(2.0 * (double)h + 1.0);
+  e->est[FF_METHOD_PEAK].why[0] = '\0';
+  snprintf(e->est[FF_METHOD_BREAK].why, sizeof e->est[FF_METHOD_BREAK].why,
+           "supercooling seen: a slope break does not apply");
+
+  /* Liquid branch: from the warmest point of the segment to just before
+   * the minimum (the smoothing and the corner spoil the last samples). */
+  for (size_t k = seg0; k < m; k++)
+    if (c->ys[k] > c->ys[lw0])
+      lw0 = k;
+  lw1 = m > h + 1 ? m - h - 1 : 0;
+  if (lw1 > lw0)
+    fit_liquid(c, e, lw0, lw1);
+  else
+    e->flags |= FF_FLAG_LIQUID_SHORT;
+
+  /* Settling: the probe needs a few of its time constants after the rise;
+   * the rise time measures them (lag plus ice growth). */
+  settle = p->settle_s >= 0.0 ? p->settle_s
+           : fmin(60.0, fmax(3.0 * c->dt, 1.5 * (c->t[pk] - c->t[m])));
+  b0 = dd_index_at(c, c->t[pk] + settle);
+  if (b0 >= b_end || c->t[b_end - 1] - c->t[b0] < p->min_branch_s) {
+    e->flags |= FF_FLAG_BRANCH_SHORT;
+    if (!thaw)
+      e->flags |= FF_FLAG_AT_END;
+  } else if (settle > 0.5 * (c->t[b_end - 1] - c->t[pk])) {
+    e->flags |= FF_FLAG_LAG_UNSETTLED;
+  }
+  e->branch_start_s = c->t[b0 < b_end ? b0 : b_end - 1];
+  e->branch_end_s = c->t[b_end - 1];
+  if (b0 + 1 < b_end)
+    read_event(c, e, m, b0, b_end);
+  else
+    for (int k = FF_METHOD_PLATEAU; k < FF_METHOD_COUNT; k++)
+      if (k != FF_METHOD_PEAK && k != FF_METHOD_BREAK)
+        snprintf(e->est[k].why, sizeof e->est[k].why, "no freezing branch");
+
+  /* Model: integrate the energy balance from a liquid point well before
+   * the corner; its fit may use a longer branch (up to half frozen). */
+  s0 = dd_index_at(c, c->t[m] - fmax(10.0, 3.0 * (double)h * c->dt));
+  if (s0 < lw0)
+    s0 = lw0;
+  mb_end = b_end;
+  if (b0 + 1 < b_end && s0 < b0)
+    dd_model(c, e, s0, b0, mb_end);
+  else
+    snprintf(e->est[FF_METHOD_MODEL].why, sizeof e->est[FF_METHOD_MODEL].why,
+             "no freezing branch");
+  if (!isfinite(e->frozen_fraction))
+    e->frozen_fraction = c->cpl / c->lat * e->recalescence_rise_k;
+  if (c->sigma > 0.02)
+    e->flags |= FF_FLAG_NOISY;
+  if (c->res >= 0.05)
+    e->flags |= FF_FLAG_COARSE;
+  cross_check(c, e);
+  choose(c, e);
+}
+
+/*
+ * Slope-break events (no supercooling) in [a, b): the point where a clear
+ * cooling slope drops by BREAK_RATIO within BREAK_WINDOW_S and stays flat
+ * for the minimum branch length. Slopes from prefix sums, O(1) each.
+ */
+static int find_break(const struct dctx *c, size_t a, size_t b, size_t *at)
+{
+  size_t n = b > a ? b - a : 0, w, best = 0, wb;
+  double *S, bestr = 0.0, t0;
+
+  if (n < 20)
+    return 0;
+  w = (size_t)(BREAK_WINDOW_S / c->dt + 0.5);
+  wb = (size_t)(c->p->min_branch_s / c->dt + 0.5);
+  if (w < 5)
+    w = 5;
+  if (n < 2 * w + wb)
+    return 0;
+  S = calloc(5 * (n + 1), sizeof *S);
+  if (S == NULL)
+    return 0;
+  t0 = c->t[a];
+  for (size_t i = 0; i < n; i++) {
+    double x = c->t[a + i] - t0, y = c->y[a + i];
+    double add[5] = { 1.0, x, x * x, y, x * y };
+    for (int k = 0; k < 5; k++)
+      S[5 * (i + 1) + k] = S[5 * i + k] + add[k];
+  }
+#define SLOPE(i0, i1, out)                                                    \
+  do {                                                                        \
+    double m_[5];                                                             \
+    for (int q_ = 0; q_ < 5; q_++)                                            \
+      m_[q_] = S[5 * (i1) + q_] - S[5 * (i0) + q_];                           \
+    double sxx_ = m_[2] - m_[1] * m_[1] / m_[0];                              \
+    (out) = sxx_ > 0.0 ? (m_[4] - m_[1] * m_[3] / m_[0]) / sxx_ : 0.0;       \
+  } while (0)
+  for (size_t i = w; i + (wb > w ? wb : w) <= n; i++) {
+    double sb, sa, sl, drop;
+    SLOPE(i - w, i, sb);
+    if (!(sb < 0.0))
+      continue;
+    drop = -sb * (c->t[a + i - 1] - c->t[a + i - w]);
+    if (drop < 10.0 * c->sigma + 2.0 * c->res)
+      continue;
+    SLOPE(i, i + w, sa);
+    SLOPE(i, i + wb, sl);
+    if (fabs(sa) * BREAK_RATIO < -sb && fabs(sl) * 5.0 < -sb
+        && -sb / fmax(fabs(sa), 1e-12) > bestr) {
+      bestr = -sb / fmax(fabs(sa), 1e-12);
+      best = i;
+    }
+  }
+#undef SLOPE
+  free(S);
+  if (best == 0)
+    return 0;
+  *at = a + best;
+  return 1;
+}
+
+static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
+                        size_t k, size_t b_end, int thaw)
+{
+  const struct ff_detect_params *p = c->p;
+  size_t lw0 = seg0, a, pe;
+
+  e->flags |= FF_FLAG_NO_NUCLEATION;
+  e->start_s = c->t[seg0];
+  e->end_s = c->t[b_end - 1];
+  e->noise_k = c->sigma;
+  for (size_t q = seg0; q < k; q++)
+    if (c->ys[q] > c->ys[lw0])
+      lw0 = q;
+  fit_liquid(c, e, lw0, k);
+  a = dd_index_at(c, c->t[k] - 120.0);
+  if (a < lw0)
+    a = lw0;
+  pe = dd_index_at(c, c->t[k] + p->max_branch_s);
+  if (pe + 1 < b_end)
+    b_end = pe + 1;
+  dd_break(c, e, a, b_end);
+  e->nucleation_time_s = isfinite(e->break_time_s) ? e->break_time_s
+                                                   : c->t[k];
+  e->t_min_c = e->peak_c = c->ys[k];
+  e->peak_time_s = c->t[k];
+  e->recalescence_rise_k = 0.0;
+  e->frozen_fraction = 0.0;
+  e->branch_start_s = c->t[k];
+  e->branch_end_s = c->t[b_end - 1];
+  if (c->t[b_end - 1] - c->t[k] < p->min_branch_s) {
+    e->flags |= FF_FLAG_BRANCH_SHORT;
+    if (!thaw)
+      e->flags |= FF_FLAG_AT_END;
+  }
+  dd_plateau(c, e, k, b_end);
+  snprintf(e->est[FF_METHOD_PEAK].why, sizeof e->est[FF_METHOD_PEAK].why,
+           "no recalescence, so no maximum");
+  snprintf(e->est[FF_METHOD_MODEL].why, sizeof e->est[FF_METHOD_MODEL].why,
+           "no supercooling: nothing to correct");
+  if (c->sigma > 0.02)
+    e->flags |= FF_FLAG_NOISY;
+  if (c->res >= 0.05)
+    e->flags |= FF_FLAG_COARSE;
+  choose(c, e);
+}
+
+/* Scans [from, n) for the next recalescence; returns 1 with m (minimum) and
+ * pk (peak), or 0. *resume is where scanning may go on when 0 is returned
+ * with a rejected candidate. */
+static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
+                             size_t *pk)
+{
+  const struct ff_detect_params *p = c->p;
+  double rise = rise_threshold(c);
+  size_t lo = from;
+
+  for (size_t j = from; j < c->n; j++) {
+    size_t mi = j;
+    while (c->t[j] - c->t[lo] > p->max_rise_s)
+      lo++;
+    for (size_t k = lo; k <= j; k++)
+      if (c->ys[k] < c->ys[mi])
+        mi = k;
+    if (c->ys[j] - c->ys[mi] < rise)
+      continue;
+    /* Liquid cooling must lead into it (a warm-up does not). */
+    {
+      size_t a = dd_index_at(c, c->t[mi] - PRE_WINDOW_S), top, kend, k;
+      double best;
+      int ok = 1;
+      if (a < from)
+        a = from;
+      if (mi > a && c->ys[a] - c->ys[mi] < 0.5 * rise && c->t[mi]
+          - c->t[a] >= 0.5 * PRE_WINDOW_S)
+        ok = 0;
+      /* The peak: the warmest smoothed point soon after; the first point
+       * within the noise of it is taken as its time. */
+      kend = dd_index_at(c, c->t[mi] + p->max_rise_s + 30.0);
+      top = j;
+      for (k = j; k <= kend && k < c->n; k++)
+        if (c->ys[k] > c->ys[top])
+          top = k;
+      best = c->ys[top];
+      /* A freeze holds at or below its peak; a warm-up keeps rising. */
+      kend = dd_index_at(c, c->t[top] + 60.0);
+      for (k = top; k <= kend && k < c->n; k++)
+        if (c->ys[k] > best + 0.5 * rise)
+          ok = 0;
+      if (!ok) {
+        /* Skip this rise: carry on from its top. */
+        j = top;
+        lo = top;
+        continue;
+      }
+      for (k = j; k < top; k++)
+        if (c->ys[k] >= best - fmax(2.0 * c->sigma / sqrt(5.0), c->res))
+          break;
+      *m = mi;
+      *pk = k;
+      return 1;
+    }
+  }
+  return 0;
+}
+
+int ff_detect_run(const double *t_s, const double *temp_c, size_t n,
+                  const struct ff_detect_params *p, struct ff_event_list *out,
+                  struct ff_diag *d)
+{
+  static const struct ff_detect_params defaults = FF_DETECT_PARAMS_DEFAULT;
+  struct dctx c = { 0 };
+  size_t from = 0, seg0 = 0;
+  unsigned cycle = 0;
+  int st;
+
+  if (p == NULL)
+    p = &defaults;
+  if (n < MIN_POINTS)
+    return ff_diag_set(d, FF_EUNTRUSTED, NULL, "only %zu readings: at least "
+                       "%d are needed to find a freeze", n, MIN_POINTS);
+  if ((st = check_input(t_s, temp_c, n, d)) != FF_OK)
+    return st;
+  c.t = t_s;
+  c.y = temp_c;
+  c.n = n;
+  c.p = p;
+  if (p->solvent != NULL && p->solvent->cp_liq_j_g_k > 0.0
+      && p->solvent->dh_fus_j_mol > 0.0 && p->solvent->m_g_mol > 0.0) {
+    c.cpl = p->solvent->cp_liq_j_g_k;
+    c.cps = p->solvent->cp_sol_j_g_k > 0.0 ? p->solvent->cp_sol_j_g_k : c.cpl;
+    c.lat = p->solvent->dh_fus_j_mol / p->solvent->m_g_mol;
+  } else {
+    c.cpl = WATER_CP_LIQ;
+    c.cps = WATER_CP_SOL;
+    c.lat = WATER_DH_FUS / WATER_M;
+  }
+  if (estimate_noise(&c) != 0 || smooth(&c) != 0) {
+    free(c.ys);
+    return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+  }
+  while (from < n) {
+    size_t m, pk, b_end, k, nxt;
+    int thaw, have = next_recalescence(&c, from, &m, &pk);
+    struct ff_event e;
+    size_t stop = have ? m : n;
+
+    /* A freeze without supercooling before the next recalescence? */
+    if (find_break(&c, from, stop, &k)) {
+      b_end = branch_end(&c, k, rise_threshold(&c), &thaw);
+      init_event(&e, ++cycle, c.res);
+      break_event(&c, &e, seg0, k, b_end, thaw);
+      if (push(out, &e) != 0)
+        goto oom;
+      nxt = melted(&c, b_end, c.ys[k] + MELT_MARGIN_K);
+      seg0 = nxt;
+      from = nxt;
+      continue;
+    }
+    if (!have)
+      break;
+    b_end = branch_end(&c, pk, rise_threshold(&c), &thaw);
+    init_event(&e, ++cycle, c.res);
+    recalescence_event(&c, &e, seg0, m, pk, b_end, thaw);
+    if (push(out, &e) != 0)
+      goto oom;
+    nxt = melted(&c, b_end, c.ys[pk] + fmax(MELT_MARGIN_K,
+                                            rise_threshold(&c)));
+    seg0 = nxt;
+    from = nxt;
+  }
+  free(c.ys);
+  return FF_OK;
+oom:
+  free(c.ys);
+  ff_event_list_release(out);
+  return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+}

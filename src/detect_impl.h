@@ -1,0 +1,51 @@
+/* detect_impl.h - private helpers shared by detect.c and detect_methods.c. */
+#ifndef FF_DETECT_IMPL_H
+#define FF_DETECT_IMPL_H
+
+#include <stddef.h>
+#include "frostfit/detect.h"
+
+/* One channel being analysed. Arrays borrowed from the caller except ys. */
+struct dctx {
+  const double *t, *y;
+  size_t n;
+  double *ys;                  /* lightly smoothed copy (owned) */
+  double sigma;                /* noise sd of one reading, K */
+  double res;                  /* resolution used, K (0 = none seen) */
+  double dt;                   /* median sampling interval, s */
+  const struct ff_detect_params *p;
+  double cpl, cps, lat;        /* J/(g K), J/(g K), J/g */
+};
+
+/* Index ranges are half-open [i0, i1). */
+size_t dd_index_at(const struct dctx *c, double t_s);
+
+/* Straight line by ordinary least squares with covariance scaled by the
+ * residual variance; c0 is the value at t_ref. Returns 0 or -1. */
+int dd_line(const double *t, const double *y, size_t i0, size_t i1,
+            double t_ref, double *c0, double *c1, double cov[3],
+            double *rms);
+
+/* Newton cooling fit over [i0, i1); fills f (kind 1) or returns -1. */
+int dd_newton(const struct dctx *c, size_t i0, size_t i1,
+              struct ff_liquid_fit *f);
+
+/* Polynomial branch fit, order 1 or 2, with covariance (row-major 3x3). */
+int dd_branch(const struct dctx *c, size_t i0, size_t i1, int order,
+              double t_ref, struct ff_branch_fit *b, double cov[9]);
+
+/* The methods; each fills est (ok = 0 with why when not computable). */
+void dd_plateau(const struct dctx *c, struct ff_event *e, size_t i0,
+                size_t i1);
+void dd_extrapolate(const struct dctx *c, struct ff_event *e, size_t i0,
+                    size_t i1);
+void dd_intersect(const struct dctx *c, struct ff_event *e, size_t i0,
+                  size_t i1);
+void dd_break(const struct dctx *c, struct ff_event *e, size_t l0,
+              size_t i1);
+void dd_model(const struct dctx *c, struct ff_event *e, size_t s0,
+              size_t i0, size_t i1);
+
+double dd_median(double *v, size_t n);  /* sorts v */
+
+#endif /* FF_DETECT_IMPL_H */

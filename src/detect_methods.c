@@ -1,0 +1,562 @@
+/* detect_methods.c - the freezing-point readings of one freeze event (plateau,
+ * extrapolation, intersection, slope break, energy-balance model): detect
+ * stage. The equations are in docs/methods/detection.md. */
+#include "detect_impl.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_fit.h>
+#include <gsl/gsl_multifit.h>
+#include <gsl/gsl_multifit_nlinear.h>
+#include <gsl/gsl_sort.h>
+#include <gsl/gsl_statistics_double.h>
+
+/* Fewest points a fit is tried on. */
+#define MIN_FIT_POINTS 5
+/* A quadratic term is kept only when this many standard errors from 0. */
+#define QUAD_SIGNIFICANCE 3.0
+/* Frozen fractions above this are not used by the model: the 1/(1 - x) law
+ * of a dilute solution and the constant heat-transfer coefficient both get
+ * worse as the sample turns to ice. */
+#define MODEL_X_MAX 0.5
+
+static void est_fail(struct ff_estimate *e, const char *why)
+{
+  e->ok = 0;
+  e->value_c = NAN;
+  e->u_k = NAN;
+  snprintf(e->why, sizeof e->why, "%s", why);
+}
+
+static void est_set(struct ff_estimate *e, double v, double u)
+{
+  if (!isfinite(v) || !isfinite(u)) {
+    est_fail(e, "the fit gave no finite value");
+    return;
+  }
+  e->ok = 1;
+  e->value_c = v;
+  e->u_k = u;
+  e->why[0] = '\0';
+}
+
+double dd_median(double *v, size_t n)
+{
+  gsl_sort(v, 1, n);
+  return gsl_stats_median_from_sorted_data(v, 1, n);
+}
+
+int dd_line(const double *t, const double *y, size_t i0, size_t i1,
+            double t_ref, double *c0, double *c1, double cov[3], double *rms)
+{
+  size_t n = i1 > i0 ? i1 - i0 : 0;
+  double *x, sumsq;
+  int st;
+
+  if (n < 3)
+    return -1;
+  x = malloc(n * sizeof *x);
+  if (x == NULL)
+    return -1;
+  for (size_t i = 0; i < n; i++)
+    x[i] = t[i0 + i] - t_ref;
+  st = gsl_fit_linear(x, 1, y + i0, 1, n, c0, c1, &cov[0], &cov[1], &cov[2],
+                      &sumsq);
+  free(x);
+  if (st != GSL_SUCCESS || !isfinite(*c0) || !isfinite(*c1))
+    return -1;
+  if (rms != NULL)
+    *rms = sqrt(sumsq / (double)n);
+  return 0;
+}
+
+/* ---- Newton cooling: T = Tb + A exp(-k (t - t_ref)) ---------------- */
+
+struct nl_data {
+  const double *t, *y;
+  size_t n;
+  double t_ref;
+};
+
+static int newton_f(const gsl_vector *x, void *data, gsl_vector *f)
+{
+  const struct nl_data *d = data;
+  double tb = gsl_vector_get(x, 0), a = gsl_vector_get(x, 1),
+         k = gsl_vector_get(x, 2);
+
+  for (size_t i = 0; i < d->n; i++)
+    gsl_vector_set(f, i, tb + a * exp(-k * (d->t[i] - d->t_ref)) - d->y[i]);
+  return GSL_SUCCESS;
+}
+
+static int newton_df(const gsl_vector *x, void *data, gsl_matrix *J)
+{
+  const struct nl_data *d = data;
+  double a = gsl_vector_get(x, 1), k = gsl_vector_get(x, 2);
+
+  for (size_t i = 0; i < d->n; i++) {
+    double s = d->t[i] - d->t_ref, e = exp(-k * s);
+    gsl_matrix_set(J, i, 0, 1.0);
+    gsl_matrix_set(J, i, 1, e);
+    gsl_matrix_set(J, i, 2, -a * s * e);
+  }
+  return GSL_SUCCESS;
+}
+
+/* Mean of c->ys over about m points centred on i. */
+static double local_mean(const struct dctx *c, size_t i, size_t m, size_t lo,
+                         size_t hi)
+{
+  size_t a = i > lo + m / 2 ? i - m / 2 : lo, b = a + m;
+  double s = 0.0;
+
+  if (b > hi)
+    b = hi;
+  if (a >= b)
+    return c->y[i];
+  for (size_t j = a; j < b; j++)
+    s += c->y[j];
+  return s / (double)(b - a);
+}
+
+int dd_newton(const struct dctx *c, size_t i0, size_t i1,
+              struct ff_liquid_fit *f)
+{
+  size_t n = i1 > i0 ? i1 - i0 : 0, mid, m;
+  struct nl_data nd;
+  double y1, y2, y3, h, r, k, a, tb, x0[3], span;
+  gsl_multifit_nlinear_parameters fp;
+  gsl_multifit_nlinear_workspace *w;
+  gsl_multifit_nlinear_fdf fdf;
+  gsl_vector_view xv;
+  int info, st, ret = -1;
+
+  if (n < 3 * MIN_FIT_POINTS)
+    return -1;
+  /* Starting values from three averaged points at equal spacing: for an
+   * exponential, (y1 - y2) / (y2 - y3) = exp(k h). */
+  mid = i0 + n / 2;
+  m = n / 10 > 1 ? n / 10 : 1;
+  y1 = local_mean(c, i0 + m / 2, m, i0, i1);
+  y2 = local_mean(c, mid, m, i0, i1);
+  y3 = local_mean(c, i1 - 1 - m / 2, m, i0, i1);
+  h = 0.5 * (c->t[i1 - 1 - m / 2] - c->t[i0 + m / 2]);
+  span = c->t[i1 - 1] - c->t[i0];
+  if (!(h > 0.0) || !(y2 - y3 > 0.0) || !(y1 - y2 > 0.0))
+    return -1;
+  r = (y1 - y2) / (y2 - y3);
+  if (!(r > 1.0 + 1e-6))
+    k = 0.05 / span;           /* nearly straight: start from a long tau */
+  else
+    k = log(r) / h;
+  a = (y1 - y2) / (1.0 - exp(-k * h));
+  tb = y1 - a;
+  a *= exp(k * (c->t[i0 + m / 2] - c->t[i0]));   /* to t_ref = t[i0] */
+
+  nd = (struct nl_data){ c->t + i0, c->y + i0, n, c->t[i0] };
+  fdf.f = newton_f;
+  fdf.df = newton_df;
+  fdf.fvv = NULL;
+  fdf.n = n;
+  fdf.p = 3;
+  fdf.params = &nd;
+  fp = gsl_multifit_nlinear_default_parameters();
+  w = gsl_multifit_nlinear_alloc(gsl_multifit_nlinear_trust, &fp, n, 3);
+  if (w == NULL)
+    return -1;
+  x0[0] = tb;
+  x0[1] = a;
+  x0[2] = k;
+  xv = gsl_vector_view_array(x0, 3);
+  st = gsl_multifit_nlinear_init(&xv.vector, &fdf, w);
+  if (st == GSL_SUCCESS)
+    st = gsl_multifit_nlinear_driver(200, 1e-12, 1e-12, 1e-12, NULL, NULL,
+                                     &info, w);
+  if (st == GSL_SUCCESS) {
+    const gsl_vector *x = gsl_multifit_nlinear_position(w);
+    const gsl_vector *res = gsl_multifit_nlinear_residual(w);
+    double kk = gsl_vector_get(x, 2), ss = 0.0;
+    for (size_t i = 0; i < n; i++)
+      ss += gsl_vector_get(res, i) * gsl_vector_get(res, i);
+    /* A time constant far beyond the window is not measured by it. */
+    if (kk > 0.0 && 1.0 / kk < 30.0 * span && isfinite(gsl_vector_get(x, 0))) {
+      f->kind = 1;
+      f->t_ref_s = c->t[i0];
+      f->bath_c = gsl_vector_get(x, 0);
+      f->t0_c = f->bath_c + gsl_vector_get(x, 1);
+      f->tau_s = 1.0 / kk;
+      f->slope_k_s = -(f->t0_c - f->bath_c) * kk;
+      f->start_s = c->t[i0];
+      f->end_s = c->t[i1 - 1];
+      f->rms_k = sqrt(ss / (double)n);
+      ret = 0;
+    }
+  }
+  gsl_multifit_nlinear_free(w);
+  return ret;
+}
+
+/* ---- weighted polynomial branch ------------------------------------ */
+
+int dd_branch(const struct dctx *c, size_t i0, size_t i1, int order,
+              double t_ref, struct ff_branch_fit *b, double cov9[9])
+{
+  size_t n = i1 > i0 ? i1 - i0 : 0, np = (size_t)order + 1;
+  gsl_matrix *X, *cov;
+  gsl_vector *w, *yv, *cf;
+  gsl_multifit_linear_workspace *ws;
+  double chisq;
+  int st, ret = -1;
+
+  if (n < MIN_FIT_POINTS + np)
+    return -1;
+  X = gsl_matrix_alloc(n, np);
+  cov = gsl_matrix_alloc(np, np);
+  w = gsl_vector_alloc(n);
+  yv = gsl_vector_alloc(n);
+  cf = gsl_vector_alloc(np);
+  ws = gsl_multifit_linear_alloc(n, np);
+  if (X && cov && w && yv && cf && ws) {
+    for (size_t i = 0; i < n; i++) {
+      double s = c->t[i0 + i] - t_ref;
+      gsl_matrix_set(X, i, 0, 1.0);
+      gsl_matrix_set(X, i, 1, s);
+      if (np > 2)
+        gsl_matrix_set(X, i, 2, s * s);
+      gsl_vector_set(w, i, 1.0);   /* equal readings: one noise level */
+      gsl_vector_set(yv, i, c->y[i0 + i]);
+    }
+    st = gsl_multifit_wlinear(X, w, yv, cf, cov, &chisq, ws);
+    if (st == GSL_SUCCESS) {
+      /* Unit weights: scale the covariance by the residual variance. */
+      double s2 = chisq / (double)(n - np);
+      memset(b, 0, sizeof *b);
+      b->ok = 1;
+      b->order = order;
+      b->t_ref_s = t_ref;
+      for (size_t j = 0; j < np; j++)
+        b->c[j] = gsl_vector_get(cf, j);
+      b->start_s = c->t[i0];
+      b->end_s = c->t[i1 - 1];
+      b->rms_k = sqrt(chisq / (double)n);
+      for (size_t r = 0; r < 3; r++)
+        for (size_t q = 0; q < 3; q++)
+          cov9[r * 3 + q] = (r < np && q < np)
+                            ? gsl_matrix_get(cov, r, q) * s2 : 0.0;
+      ret = 0;
+    }
+  }
+  gsl_matrix_free(X);
+  gsl_matrix_free(cov);
+  gsl_vector_free(w);
+  gsl_vector_free(yv);
+  gsl_vector_free(cf);
+  if (ws)
+    gsl_multifit_linear_free(ws);
+  return ret;
+}
+
+static double poly_var(const double cov[9], double s)
+{
+  double j[3] = { 1.0, s, s * s }, v = 0.0;
+
+  for (int r = 0; r < 3; r++)
+    for (int q = 0; q < 3; q++)
+      v += j[r] * cov[r * 3 + q] * j[q];
+  return v > 0.0 ? v : 0.0;
+}
+
+/* ---- plateau --------------------------------------------------------- */
+
+/*
+ * The longest window from the start of the settled branch whose fitted
+ * drift (slope times length) is within the noise: insignificant at three
+ * standard errors, or below half a resolution step. Its median is the level.
+ */
+void dd_plateau(const struct dctx *c, struct ff_event *e, size_t i0,
+                size_t i1)
+{
+  struct ff_estimate *es = &e->est[FF_METHOD_PLATEAU];
+  size_t best = 0, n = i1 > i0 ? i1 - i0 : 0, step;
+  double *v;
+
+  if (n < 2 * MIN_FIT_POINTS) {
+    est_fail(es, "freezing branch too short for a plateau");
+    return;
+  }
+  step = n / 40 > 1 ? n / 40 : 1;
+  for (size_t m = n; m >= 2 * MIN_FIT_POINTS; m = m > step ? m - step : 0) {
+    double c0, c1, cov[3], rms, span = c->t[i0 + m - 1] - c->t[i0];
+    if (dd_line(c->t, c->y, i0, i0 + m, c->t[i0], &c0, &c1, cov, &rms) != 0)
+      continue;
+    if (fabs(c1) * span <= fmax(3.0 * sqrt(cov[2]) * span,
+                                fmax(0.5 * c->res, 0.5 * c->sigma))) {
+      best = m;
+      break;
+    }
+  }
+  if (best == 0 || c->t[i0 + best - 1] - c->t[i0] < 0.5 * c->p->min_branch_s) {
+    est_fail(es, "no flat part after recalescence: the branch slopes, as a "
+             "solution's does");
+    return;
+  }
+  v = malloc(best * sizeof *v);
+  if (v == NULL) {
+    est_fail(es, "out of memory");
+    return;
+  }
+  memcpy(v, c->y + i0, best * sizeof *v);
+  /* Median of n normal readings: sd = 1.2533 sigma / sqrt(n). */
+  est_set(es, dd_median(v, best), 1.2533 * c->sigma / sqrt((double)best));
+  free(v);
+}
+
+/* ---- back-extrapolation to the nucleation instant ------------------- */
+
+void dd_extrapolate(const struct dctx *c, struct ff_event *e, size_t i0,
+                    size_t i1)
+{
+  struct ff_estimate *es = &e->est[FF_METHOD_EXTRAPOLATE];
+  struct ff_branch_fit b1, b2;
+  double cov1[9], cov2[9], s;
+
+  if (dd_branch(c, i0, i1, 1, e->nucleation_time_s, &b1, cov1) != 0) {
+    est_fail(es, "freezing branch too short to fit");
+    return;
+  }
+  e->branch = b1;
+  s = 0.0;   /* t_ref is the nucleation instant */
+  if (dd_branch(c, i0, i1, 2, e->nucleation_time_s, &b2, cov2) == 0
+      && fabs(b2.c[2]) > QUAD_SIGNIFICANCE * sqrt(cov2[8])) {
+    e->branch = b2;
+    est_set(es, b2.c[0], sqrt(poly_var(cov2, s)));
+  } else {
+    est_set(es, b1.c[0], sqrt(poly_var(cov1, s)));
+  }
+  e->freezing_branch_slope_k_s = b1.c[1];
+}
+
+/* ---- intersection of the straight liquid and freezing lines --------- */
+
+void dd_intersect(const struct dctx *c, struct ff_event *e, size_t i0,
+                  size_t i1)
+{
+  struct ff_estimate *es = &e->est[FF_METHOD_INTERSECT];
+  const struct ff_liquid_fit *l = &e->liquid_line;
+  struct ff_branch_fit b;
+  double cov[9], ts, v, den, ub, ul, sl;
+
+  if (l->kind != 2) {
+    est_fail(es, "no liquid cooling line before nucleation");
+    return;
+  }
+  if (dd_branch(c, i0, i1, 1, e->nucleation_time_s, &b, cov) != 0) {
+    est_fail(es, "freezing branch too short to fit");
+    return;
+  }
+  den = l->slope_k_s - b.c[1];
+  if (!(den < 0.0)) {
+    est_fail(es, "the liquid line does not fall faster than the freezing "
+             "branch");
+    return;
+  }
+  /* l0 + l1 (t - tl) = b0 + b1 (t - tn) */
+  ts = e->nucleation_time_s
+       + (b.c[0] - (l->t0_c + l->slope_k_s
+                    * (e->nucleation_time_s - l->t_ref_s))) / den;
+  v = b.c[0] + b.c[1] * (ts - e->nucleation_time_s);
+  if (ts > e->nucleation_time_s + 1e-9 || ts < l->start_s
+      - 10.0 * (l->end_s - l->start_s + 1.0)) {
+    est_fail(es, "the projected lines meet far from the nucleation");
+    return;
+  }
+  /* Shifting the branch by d moves the meeting point by l1/(l1-b1) d,
+   * shifting the liquid line by d moves it by -b1/(l1-b1) d. */
+  ub = sqrt(poly_var(cov, ts - e->nucleation_time_s));
+  sl = ts - l->t_ref_s;
+  ul = l->rms_k;
+  {
+    size_t l0 = dd_index_at(c, l->start_s), l1 = dd_index_at(c, l->end_s) + 1;
+    double c0, c1, lc[3], rms;
+    if (dd_line(c->t, c->y, l0, l1, l->t_ref_s, &c0, &c1, lc, &rms) == 0)
+      ul = sqrt(fmax(0.0, lc[0] + 2.0 * lc[1] * sl + lc[2] * sl * sl));
+  }
+  est_set(es, v, hypot(l->slope_k_s / den * ub, b.c[1] / den * ul));
+}
+
+/* ---- two straight segments with a free breakpoint -------------------- */
+
+void dd_break(const struct dctx *c, struct ff_event *e, size_t l0, size_t i1)
+{
+  struct ff_estimate *es = &e->est[FF_METHOD_BREAK];
+  size_t n = i1 > l0 ? i1 - l0 : 0, best = 0;
+  double *S, t0, bsse = INFINITY;
+  double a0, a1, ac[3], ar, b0, b1, bc[3], br, tb, v, den;
+
+  if (n < 4 * MIN_FIT_POINTS) {
+    est_fail(es, "too few points around the slope break");
+    return;
+  }
+  /* Prefix sums of 1, t, t^2, y, t y, y^2 give each side's least-squares
+   * error in O(1), so every breakpoint is scanned. */
+  S = calloc(6 * (n + 1), sizeof *S);
+  if (S == NULL) {
+    est_fail(es, "out of memory");
+    return;
+  }
+  t0 = c->t[l0];
+  for (size_t i = 0; i < n; i++) {
+    double x = c->t[l0 + i] - t0, y = c->y[l0 + i];
+    double add[6] = { 1.0, x, x * x, y, x * y, y * y };
+    for (int k = 0; k < 6; k++)
+      S[6 * (i + 1) + k] = S[6 * i + k] + add[k];
+  }
+  for (size_t k = MIN_FIT_POINTS; k + MIN_FIT_POINTS <= n; k++) {
+    double sse = 0.0;
+    for (int side = 0; side < 2; side++) {
+      size_t a = side ? k : 0, bnd = side ? n : k;
+      double m[6];
+      for (int q = 0; q < 6; q++)
+        m[q] = S[6 * bnd + q] - S[6 * a + q];
+      double sxx = m[2] - m[1] * m[1] / m[0], sxy = m[4] - m[1] * m[3] / m[0],
+             syy = m[5] - m[3] * m[3] / m[0];
+      sse += sxx > 0.0 ? syy - sxy * sxy / sxx : syy;
+    }
+    if (sse < bsse) {
+      bsse = sse;
+      best = k;
+    }
+  }
+  free(S);
+  if (best == 0) {
+    est_fail(es, "no breakpoint found");
+    return;
+  }
+  tb = c->t[l0 + best];
+  if (dd_line(c->t, c->y, l0, l0 + best, tb, &a0, &a1, ac, &ar) != 0
+      || dd_line(c->t, c->y, l0 + best, i1, tb, &b0, &b1, bc, &br) != 0) {
+    est_fail(es, "a segment could not be fitted");
+    return;
+  }
+  den = a1 - b1;
+  e->break_time_s = tb;
+  if (den < 0.0) {
+    double ts = (b0 - a0) / den;     /* relative to tb */
+    if (fabs(ts) < 0.25 * (c->t[i1 - 1] - c->t[l0])) {
+      double ub = sqrt(fmax(0.0, bc[0] + 2 * bc[1] * ts + bc[2] * ts * ts)),
+             ua = sqrt(fmax(0.0, ac[0] + 2 * ac[1] * ts + ac[2] * ts * ts));
+      v = b0 + b1 * ts;
+      e->break_time_s = tb + ts;
+      est_set(es, v, hypot(a1 / den * ub, b1 / den * ua));
+      return;
+    }
+  }
+  est_set(es, b0, sqrt(bc[0]));
+}
+
+/* ---- energy-balance model -------------------------------------------- */
+
+/*
+ * Frozen fraction x from the energy balance of the tube, integrated from a
+ * liquid point s0 before nucleation (x = 0 there):
+ *   C(x) dT/dt = -h (T - Tb) + L m dx/dt,  C(x) = m [(1 - x) cp_l + x cp_s],
+ *   h = m cp_l / tau  (Newton fit of the liquid branch: Tb, tau),
+ * so L dx = C(x)/m dT + cp_l (T - Tb) dt / tau. A thermometer that lags by a
+ * first-order time constant sees the same relation delayed, so x(t) and T(t)
+ * read from it stay paired. The quasi-equilibrium branch then follows the
+ * freezing point of the concentrated solution, T = Tf0 - delta / (1 - x):
+ * linear in 1/(1 - x). Its value at x = 0 is the initial solution's.
+ */
+void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
+              size_t i1)
+{
+  struct ff_estimate *es = &e->est[FF_METHOD_MODEL];
+  const struct ff_liquid_fit *l = &e->liquid;
+  double *x, tb, tau;
+  size_t n, m = 0, pk;
+  gsl_matrix *X = NULL, *cov = NULL;
+  gsl_vector *w = NULL, *yv = NULL, *cf = NULL;
+  gsl_multifit_linear_workspace *ws = NULL;
+  double chisq;
+
+  if (l->kind != 1) {
+    est_fail(es, "the liquid branch does not give a bath temperature and "
+             "time constant");
+    return;
+  }
+  if (!(i1 > i0 && i0 > s0)) {
+    est_fail(es, "freezing branch too short");
+    return;
+  }
+  tb = l->bath_c;
+  tau = l->tau_s;
+  n = i1 - s0;
+  x = malloc(n * sizeof *x);
+  if (x == NULL) {
+    est_fail(es, "out of memory");
+    return;
+  }
+  x[0] = 0.0;
+  for (size_t j = 1; j < n; j++) {
+    size_t a = s0 + j - 1, b = a + 1;
+    double xc = x[j - 1] < 0.0 ? 0.0 : (x[j - 1] > 1.0 ? 1.0 : x[j - 1]);
+    double cap = (1.0 - xc) * c->cpl + xc * c->cps;
+    double tm = 0.5 * (c->ys[a] + c->ys[b]);
+    x[j] = x[j - 1] + (cap * (c->ys[b] - c->ys[a])
+                       + c->cpl * (tm - tb) * (c->t[b] - c->t[a]) / tau)
+                      / c->lat;
+  }
+  pk = dd_index_at(c, e->peak_time_s);
+  if (pk >= s0 && pk < i1)
+    e->frozen_fraction = x[pk - s0];
+  for (size_t i = i0; i < i1; i++)
+    if (x[i - s0] > 0.0 && x[i - s0] <= MODEL_X_MAX)
+      m++;
+  if (m < 2 * MIN_FIT_POINTS) {
+    free(x);
+    est_fail(es, "too few settled points on the freezing branch");
+    return;
+  }
+  X = gsl_matrix_alloc(m, 2);
+  cov = gsl_matrix_alloc(2, 2);
+  w = gsl_vector_alloc(m);
+  yv = gsl_vector_alloc(m);
+  cf = gsl_vector_alloc(2);
+  ws = gsl_multifit_linear_alloc(m, 2);
+  if (X && cov && w && yv && cf && ws) {
+    size_t k = 0;
+    for (size_t i = i0; i < i1; i++) {
+      double xi = x[i - s0];
+      if (!(xi > 0.0 && xi <= MODEL_X_MAX))
+        continue;
+      gsl_matrix_set(X, k, 0, 1.0);
+      gsl_matrix_set(X, k, 1, 1.0 / (1.0 - xi) - 1.0);  /* 0 at x = 0 */
+      gsl_vector_set(w, k, 1.0);
+      gsl_vector_set(yv, k, c->y[i]);
+      k++;
+    }
+    if (gsl_multifit_wlinear(X, w, yv, cf, cov, &chisq, ws) == GSL_SUCCESS) {
+      double s2 = chisq / (double)(m - 2);
+      double a = gsl_vector_get(cf, 0), b = gsl_vector_get(cf, 1);
+      e->model_delta_k = -b;
+      e->model_tf0_c = a - b;
+      est_set(es, a, sqrt(gsl_matrix_get(cov, 0, 0) * s2));
+    } else {
+      est_fail(es, "the branch fit failed");
+    }
+  } else {
+    est_fail(es, "out of memory");
+  }
+  gsl_matrix_free(X);
+  gsl_matrix_free(cov);
+  gsl_vector_free(w);
+  gsl_vector_free(yv);
+  gsl_vector_free(cf);
+  if (ws)
+    gsl_multifit_linear_free(ws);
+  free(x);
+}
