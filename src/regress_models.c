@@ -278,8 +278,9 @@ static int fit_linear(const struct ff_regress_input *in,
   else
     set_names(f, np = (size_t)terms, fix_names);
   f->virial_terms = model == FF_REGRESS_SQRT_LINEAR ? 0 : terms;
-  /* distinct molalities needed = columns, so the design can have full rank */
-  if (need_points(f, in, np, np, d) != FF_OK)
+  /* distinct molalities: one per column for full rank, and at least two
+   * for any trend to extrapolate (one molality says nothing about m -> 0) */
+  if (need_points(f, in, np, np > 2 ? np : 2, d) != FF_OK)
     return FF_EUNTRUSTED;
 
   double *X = malloc(n * (np + 1) * sizeof *X);

@@ -447,8 +447,9 @@ int ff_regress_molar_mass(const double *conc, const double *m_app_g_mol,
   else
     mm_aicc(L);
 
-  /* 1/M_app = 1/M0 + s c: exact to first order for monomer-dimer
-   * association, since 1/M_app = i/M1 and i = 1 - K2 m + ... */
+  /* 1/M_app = 1/M0 + s c: for monomer-dimer association 1/M_app = i/M1
+   * with i = 1 - K2 m + 4 K2^2 m^2 - ..., while M_app/M1 = 1 + K2 m -
+   * 3 K2^2 m^2 + ...: both are linear to first order, so chi2 decides. */
   struct ff_mm_fit *R = &out->reciprocal;
   R->method = FF_MM_RECIPROCAL;
   R->n = n;
