@@ -8,7 +8,9 @@
 #define FF_GAS_R 8.314462618   /* J/(mol K), CODATA 2018 exact */
 #define FF_ZERO_C 273.15       /* K at 0 degrees C */
 
-/* One solvent. Plain data; units in the names. */
+/* One solvent. Plain data; units in the names. A constant the table leaves
+ * empty is NaN (allowed for dh_fus, m, cp: Kf calc and the simulator then
+ * refuse it); name, tf_c and kf_k_kg_mol are always present. */
 struct ff_solvent {
   char name[64];               /* key used in run sheets, lower case */
   char aliases[128];           /* other accepted names, '|' separated */
@@ -19,7 +21,7 @@ struct ff_solvent {
   double cp_liq_j_g_k;         /* liquid specific heat capacity */
   double cp_sol_j_g_k;         /* solid specific heat capacity */
   char hazard[256];            /* short caution text */
-  char source[256];            /* where the constants come from */
+  char source[512];            /* where the constants come from */
 };
 
 /* A table the caller holds: _INIT, fill with _load, then _release. */
@@ -31,9 +33,11 @@ struct ff_solvent_table {
 
 /*
  * Appends the rows of a solvent CSV (datasets/solvents.csv format; see
- * docs/formats.md) to t; a row whose name is already present replaces it,
- * so a user file loaded second overrides the bundled one. FF_EINPUT with
- * path:line:column on a bad cell, FF_EIO when unreadable.
+ * docs/formats/solvents.md) to t; a row whose name is already present (from
+ * an earlier file) replaces it, so a user file loaded second overrides the
+ * bundled one. FF_EINPUT with path:line:column on a bad cell, a missing
+ * column or a name repeated within one file; FF_EIO when unreadable or out
+ * of memory. On failure t keeps the rows it had before the call.
  */
 int ff_solvent_table_load(struct ff_solvent_table *t, const char *path,
                           struct ff_diag *d);
@@ -43,10 +47,16 @@ void ff_solvent_table_release(struct ff_solvent_table *t);
 const struct ff_solvent *ff_solvent_find(const struct ff_solvent_table *t,
                                          const char *name);
 
-/* Kf = R Tf^2 M / dH_fus in K kg/mol, from the row's own constants. */
+/* Kf = R Tf^2 M / dH_fus in K kg/mol, from the row's own constants (Tf in
+ * K, M in kg/mol); NaN when dH_fus or M is missing. */
 double ff_solvent_kf_calc(const struct ff_solvent *s);
 
-/* Frozen mass fraction per kelvin of supercooling, cp_liq / L_fus [1/K]. */
+/* Frozen mass fraction per kelvin of supercooling, cp_liq / L_fus [1/K]
+ * with L_fus = dH_fus / M in J/g; NaN when a constant is missing. */
 double ff_solvent_frozen_per_k(const struct ff_solvent *s);
+
+/* A short general caution for cold baths and cryoscopy solvents (static
+ * text, never NULL). */
+const char *ff_solvent_caution(void);
 
 #endif /* FF_SOLVENT_H */

@@ -1,0 +1,504 @@
+/* simulate.c - physical cooling-curve model (stirred tube in a bath, with its
+ * thermometer): the ground truth the detector and the series are tested on.
+ * Every equation is written out in docs/methods/simulator.md. */
+#include "frostfit/simulate.h"
+
+#include <errno.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_odeiv2.h>
+#include <gsl/gsl_randist.h>
+#include <gsl/gsl_rng.h>
+
+/* Random supercooling range, K (common practice, no source: 0.3-1 K in
+ * Beckmann work, up to about 2.5 K in cryoscopes, REFERENCES.md 8). */
+#define SUPERCOOL_RAND_LO 0.3
+#define SUPERCOOL_RAND_HI 2.5
+/* Melting slows to zero as the last ice goes (ice surface vanishes); below
+ * this frozen fraction the sample counts as ice-free. */
+#define MELT_SOFT_X 1e-6
+#define ICE_GONE_X 1e-9
+/* Most samples in one record (guards against absurd parameter sets). */
+#define MAX_SAMPLES 20000000UL
+/* Integrator tolerances: far below any thermometer's resolution. */
+#define ODE_EPS_ABS 1e-10
+#define ODE_EPS_REL 1e-10
+
+void ff_sim_water(struct ff_solvent *s)
+{
+  memset(s, 0, sizeof *s);
+  snprintf(s->name, sizeof s->name, "water");
+  snprintf(s->aliases, sizeof s->aliases, "h2o");
+  s->tf_c = 0.0;               /* ice point */
+  s->kf_k_kg_mol = 1.860;      /* USP <785> */
+  s->dh_fus_j_mol = 6006.77;   /* IAPWS-95/06, computed (REFERENCES 1.1) */
+  s->m_g_mol = 18.015268;      /* IAPWS value */
+  s->cp_liq_j_g_k = 4.2194;    /* IAPWS-95 at 273.15 K, computed */
+  s->cp_sol_j_g_k = 2.0967;    /* IAPWS-06 at 273.15 K, computed */
+  snprintf(s->hazard, sizeof s->hazard, "no chemical hazard; cold baths "
+           "still burn skin");
+  snprintf(s->source, sizeof s->source, "built-in copy of the water row of "
+           "datasets/solvents.csv");
+}
+
+void ff_sim_params_default(struct ff_sim_params *p)
+{
+  memset(p, 0, sizeof *p);
+  ff_sim_water(&p->solvent);
+  p->solvent_g = 20.0;
+  p->molality_mol_kg = 0.0;
+  p->vant_hoff_i = 1.0;
+  p->start_c = 5.0;
+  p->bath_c = -6.0;
+  p->tau_s = 120.0;
+  p->stir_w = 0.0;
+  p->supercool_k = 1.5;
+  p->growth_rate = 0.05;
+  p->probe_lag_s = 2.0;
+  p->noise_k = 0.002;
+  p->resolution_k = 0.001;
+  p->offset_k = 0.0;
+  p->dt_s = 1.0;
+  p->dropout = 0.0;
+  p->freeze_s = 900.0;
+  p->cycles = 1;
+  p->seed = 1;
+  p->growth_area_frac = 0.0005;
+  p->thaw_k = 3.0;
+}
+
+double ff_sim_true_fp_c(const struct ff_sim_params *p)
+{
+  return p->solvent.tf_c
+         - p->vant_hoff_i * p->solvent.kf_k_kg_mol * p->molality_mol_kg;
+}
+
+void ff_sim_result_release(struct ff_sim_result *r)
+{
+  if (r == NULL)
+    return;
+  free(r->t_s);
+  free(r->temp_c);
+  free(r->sample_c);
+  free(r->ice_frac);
+  memset(r, 0, sizeof *r);
+}
+
+/* ------------------------------------------------------------------ */
+/* The model.  State y = { T (sample, C), x (frozen fraction), Tp (probe) }. */
+
+struct model {
+  double ms;        /* solvent mass, g */
+  double cpl, cps;  /* J/(g K) */
+  double lat;       /* latent heat L = dH_fus / M, J/g */
+  double h;         /* heat-transfer coefficient m_s cp_l / tau, W/K */
+  double stir;      /* W */
+  double tf0;       /* pure-solvent freezing point, C */
+  double dep;       /* i Kf b0, K: depression of the initial solution */
+  double g;         /* growth constant, 1/(K s) */
+  double xa;        /* area fraction scale, 0 = off */
+  double lag;       /* probe time constant, s; 0 = ideal probe */
+  double bath;      /* current bath temperature, C */
+  int growth;       /* 1 once a crystal exists in this cycle */
+};
+
+/* Freezing point of the liquid left when a fraction x of the solvent is ice:
+ * the solute stays in (1 - x) of the solvent, T_eq = Tf0 - dep / (1 - x). */
+static double t_eq(const struct model *m, double x)
+{
+  double xl = 1.0 - x;
+
+  if (xl < 1e-6)
+    xl = 1e-6;
+  return m->tf0 - m->dep / xl;
+}
+
+/* dx/dt: ice grows (or melts) in proportion to the departure from the local
+ * freezing point. Growth needs liquid (factor 1 - x) and speeds up as the
+ * ice surface grows (factor 1 + x/x_a); melting fades as the ice vanishes. */
+static double ice_rate(const struct model *m, double T, double x)
+{
+  double d, area;
+
+  if (!m->growth)
+    return 0.0;
+  d = t_eq(m, x) - T;
+  area = m->xa > 0.0 ? 1.0 + (x > 0.0 ? x : 0.0) / m->xa : 1.0;
+  if (d > 0.0)
+    return x < 1.0 ? m->g * d * area * (1.0 - x) : 0.0;
+  if (x <= 0.0)
+    return 0.0;
+  return m->g * d * area * x / (x + MELT_SOFT_X);
+}
+
+static int rhs(double t, const double y[], double f[], void *params)
+{
+  const struct model *m = params;
+  double T = y[0], x = y[1], xc = x < 0.0 ? 0.0 : (x > 1.0 ? 1.0 : x);
+  double rate = ice_rate(m, T, x);
+  double c = m->ms * ((1.0 - xc) * m->cpl + xc * m->cps);
+
+  (void)t;
+  /* Energy: C dT/dt = -h (T - T_bath) + P_stir + L m_s dx/dt. */
+  f[0] = (-m->h * (T - m->bath) + m->stir + m->lat * m->ms * rate) / c;
+  f[1] = rate;
+  /* Probe: dTp/dt = (T - Tp) / lag; an ideal probe follows T exactly. */
+  f[2] = m->lag > 0.0 ? (T - y[2]) / m->lag : f[0];
+  return GSL_SUCCESS;
+}
+
+/* Forward-difference Jacobian: the model switches branches (grow/melt), so a
+ * numerical one is simpler to keep right than three analytic ones. */
+static int jac(double t, const double y[], double *dfdy, double dfdt[],
+               void *params)
+{
+  double f0[3], f1[3], yy[3];
+
+  rhs(t, y, f0, params);
+  for (int j = 0; j < 3; j++) {
+    double hj = j == 1 ? 1e-10 + 1e-7 * fabs(y[1])
+                       : 1e-7 * (1.0 + fabs(y[j]));
+    memcpy(yy, y, sizeof yy);
+    yy[j] += hj;
+    rhs(t, yy, f1, params);
+    for (int i = 0; i < 3; i++)
+      dfdy[i * 3 + j] = (f1[i] - f0[i]) / hj;
+  }
+  for (int i = 0; i < 3; i++)
+    dfdt[i] = 0.0;
+  return GSL_SUCCESS;
+}
+
+/* ------------------------------------------------------------------ */
+/* The run: integrate between events, record at the sampling grid. */
+
+struct sim {
+  const struct ff_sim_params *p;
+  struct model m;
+  gsl_odeiv2_system sys;
+  gsl_odeiv2_driver *drv;
+  gsl_rng *rng_phys;     /* draws the random supercooling */
+  gsl_rng *rng_meas;     /* draws noise and dropouts */
+  double t, y[3];
+  unsigned long k_next;  /* index of the next sample */
+  struct ff_sim_result *r;
+  size_t cap;
+  struct ff_diag *d;
+};
+
+static int grow(struct sim *s)
+{
+  size_t cap = s->cap ? 2 * s->cap : 4096;
+  double **arr[4] = { &s->r->t_s, &s->r->temp_c, &s->r->sample_c,
+                      &s->r->ice_frac };
+
+  if (s->r->n >= MAX_SAMPLES)
+    return ff_diag_set(s->d, FF_EUSAGE, NULL, "the simulated record would "
+                       "exceed %lu samples: raise dt or shorten the run",
+                       MAX_SAMPLES);
+  for (int i = 0; i < 4; i++) {
+    double *v = realloc(*arr[i], cap * sizeof **arr[i]);
+    if (v == NULL)
+      return ff_diag_set(s->d, FF_EIO, NULL, "out of memory");
+    *arr[i] = v;
+  }
+  s->cap = cap;
+  return FF_OK;
+}
+
+/* What the thermometer reports for the current state. */
+static double reading(struct sim *s)
+{
+  const struct ff_sim_params *p = s->p;
+  double v = s->y[2] + p->offset_k + gsl_ran_gaussian(s->rng_meas, 1.0)
+             * p->noise_k;
+  double u = gsl_rng_uniform(s->rng_meas);
+
+  if (p->resolution_k > 0.0)
+    v = round(v / p->resolution_k) * p->resolution_k + 0.0;  /* no -0 */
+  return u < p->dropout ? NAN : v;
+}
+
+static int record(struct sim *s)
+{
+  struct ff_sim_result *r = s->r;
+
+  if (r->n == s->cap && grow(s) != FF_OK)
+    return s->d->status;
+  r->t_s[r->n] = s->t;
+  r->sample_c[r->n] = s->y[0];
+  r->ice_frac[r->n] = s->y[1] < 0.0 ? 0.0 : s->y[1];
+  r->temp_c[r->n] = reading(s);
+  r->n++;
+  return FF_OK;
+}
+
+static int step_to(struct sim *s, double t1)
+{
+  int st;
+
+  if (t1 <= s->t)
+    return FF_OK;
+  st = gsl_odeiv2_driver_apply(s->drv, &s->t, t1, s->y);
+  if (st != GSL_SUCCESS)
+    return ff_diag_set(s->d, FF_EUNTRUSTED, NULL, "the integrator failed at "
+                       "t = %.3f s: %s", s->t, gsl_strerror(st));
+  s->t = t1;
+  return FF_OK;
+}
+
+static double next_sample_t(const struct sim *s)
+{
+  return (double)s->k_next * s->p->dt_s;
+}
+
+/* Integrates to t_end, recording every sample time on the way (t_end itself
+ * included when it falls on the grid). */
+static int run_until(struct sim *s, double t_end)
+{
+  int st;
+
+  while (next_sample_t(s) <= t_end) {
+    if ((st = step_to(s, next_sample_t(s))) != FF_OK ||
+        (st = record(s)) != FF_OK)
+      return st;
+    s->k_next++;
+  }
+  return step_to(s, t_end);
+}
+
+/* The physics changed (bath switched, crystal appeared, ice gone): a
+ * multistep method must not carry its history across that. */
+static void event(struct sim *s)
+{
+  gsl_odeiv2_driver_reset(s->drv);
+}
+
+/* Cold bath on: liquid cools by Newton's law until it nucleates. Before
+ * nucleation there is no ice, so the liquid branch is exactly
+ * T(t) = T_inf + (T0 - T_inf) exp(-(t - t0)/tau), T_inf = T_bath + P/h,
+ * and the nucleation instant is found in closed form. */
+static int cool_and_freeze(struct sim *s, unsigned c)
+{
+  const struct ff_sim_params *p = s->p;
+  struct ff_sim_result *r = s->r;
+  double tf_true = r->true_fp_c, u = p->supercool_k, t_inf, t_n;
+  int st;
+
+  if (u < 0.0)
+    u = SUPERCOOL_RAND_LO + (SUPERCOOL_RAND_HI - SUPERCOOL_RAND_LO)
+        * gsl_rng_uniform(s->rng_phys);
+  s->m.bath = p->bath_c;
+  s->m.growth = 0;
+  event(s);
+  r->cycle_start_t_s[c] = s->t;
+  t_inf = p->bath_c + s->m.stir / s->m.h;
+  if (t_inf < tf_true - u && s->y[0] > tf_true - u) {
+    t_n = s->t + p->tau_s * log((s->y[0] - t_inf) / (tf_true - u - t_inf));
+    if ((st = run_until(s, t_n)) != FF_OK)
+      return st;
+    /* The closed form is exact; the integrated state agrees to ~1e-6 K,
+     * so snap it, and the reported supercooling is the one asked for. */
+    s->y[0] = tf_true - u;
+    r->nucleation_t_s[c] = t_n;
+    r->supercool_k[c] = u;
+    s->m.growth = 1;
+    event(s);
+    r->peak_c[c] = s->y[0];
+  } else {
+    /* The bath cannot take the liquid that far down: no freeze this cycle,
+     * the curve just settles towards the bath. */
+    t_n = s->t + 6.0 * p->tau_s;
+    r->nucleation_t_s[c] = NAN;
+    r->supercool_k[c] = NAN;
+    r->peak_c[c] = NAN;
+  }
+  {
+    size_t i0 = r->n;
+    if ((st = run_until(s, t_n + p->freeze_s)) != FF_OK)
+      return st;
+    if (s->m.growth)
+      for (size_t i = i0; i < r->n; i++)
+        if (r->sample_c[i] > r->peak_c[c])
+          r->peak_c[c] = r->sample_c[i];
+  }
+  r->freeze_end_t_s[c] = s->t;
+  r->n_cycles = c + 1;
+  return FF_OK;
+}
+
+/* Warm bath on until the ice is gone and the sample is back at start_c;
+ * checked at the sampling grid, so the next cycle starts on a sample. */
+static int thaw(struct sim *s)
+{
+  const struct ff_sim_params *p = s->p;
+  double t_max = s->t + 400.0 * p->tau_s;
+  int st;
+
+  s->m.bath = p->start_c + p->thaw_k;
+  event(s);
+  for (;;) {
+    if ((st = run_until(s, next_sample_t(s))) != FF_OK)
+      return st;
+    if (s->y[1] < ICE_GONE_X && s->m.growth) {
+      s->y[1] = 0.0;
+      s->m.growth = 0;
+      event(s);
+    }
+    if (!s->m.growth && s->y[0] >= p->start_c)
+      return FF_OK;
+    if (s->t > t_max)
+      return ff_diag_set(s->d, FF_EUNTRUSTED, NULL, "the sample did not "
+                         "thaw within %.0f s", 400.0 * p->tau_s);
+  }
+}
+
+static int check_params(const struct ff_sim_params *p, struct ff_diag *d)
+{
+  const struct ff_solvent *v = &p->solvent;
+  double tf_true = ff_sim_true_fp_c(p);
+  const struct { const char *name; double x; int ok; } c[] = {
+    { "solvent molar mass", v->m_g_mol, v->m_g_mol > 0.0 },
+    { "solvent enthalpy of fusion", v->dh_fus_j_mol, v->dh_fus_j_mol > 0.0 },
+    { "solvent Kf", v->kf_k_kg_mol, v->kf_k_kg_mol >= 0.0 },
+    { "solvent liquid heat capacity", v->cp_liq_j_g_k, v->cp_liq_j_g_k > 0.0 },
+    { "solvent solid heat capacity", v->cp_sol_j_g_k, v->cp_sol_j_g_k > 0.0 },
+    { "solvent freezing point", v->tf_c, v->tf_c > -273.15 },
+    { "solvent mass", p->solvent_g, p->solvent_g > 0.0 },
+    { "molality", p->molality_mol_kg, p->molality_mol_kg >= 0.0 },
+    { "van 't Hoff factor", p->vant_hoff_i, p->vant_hoff_i > 0.0 },
+    { "start temperature", p->start_c, p->start_c > tf_true },
+    { "bath temperature", p->bath_c, p->bath_c > -273.15 },
+    { "time constant", p->tau_s, p->tau_s > 0.0 },
+    { "stirring power", p->stir_w, p->stir_w >= 0.0 },
+    { "supercooling", p->supercool_k, p->supercool_k < 50.0 },
+    { "growth rate", p->growth_rate, p->growth_rate > 0.0 },
+    { "growth area fraction", p->growth_area_frac, p->growth_area_frac >= 0.0 },
+    { "probe lag", p->probe_lag_s, p->probe_lag_s >= 0.0 },
+    { "noise", p->noise_k, p->noise_k >= 0.0 },
+    { "resolution", p->resolution_k, p->resolution_k >= 0.0 },
+    { "offset", p->offset_k, 1 },
+    { "sampling interval", p->dt_s, p->dt_s > 0.0 },
+    { "dropout fraction", p->dropout, p->dropout >= 0.0 && p->dropout < 1.0 },
+    { "freeze duration", p->freeze_s, p->freeze_s > 0.0 },
+    { "thaw bath step", p->thaw_k, p->thaw_k > 0.0 },
+  };
+
+  for (size_t i = 0; i < sizeof c / sizeof c[0]; i++) {
+    if (!isfinite(c[i].x))
+      return ff_diag_set(d, FF_EUSAGE, NULL, "%s must be a finite number",
+                         c[i].name);
+    if (!c[i].ok) {
+      if (strcmp(c[i].name, "start temperature") == 0)
+        return ff_diag_set(d, FF_EUSAGE, NULL, "start temperature %g C must "
+                           "lie above the freezing point %g C", p->start_c,
+                           tf_true);
+      return ff_diag_set(d, FF_EUSAGE, NULL, "%s out of range: %g",
+                         c[i].name, c[i].x);
+    }
+  }
+  if (p->cycles < 1 || p->cycles > FF_SIM_MAX_CYCLES)
+    return ff_diag_set(d, FF_EUSAGE, NULL, "cycles must be 1 to %d, not %u",
+                       FF_SIM_MAX_CYCLES, p->cycles);
+  if ((p->freeze_s + 6.0 * p->tau_s) / p->dt_s * p->cycles
+      > (double)MAX_SAMPLES)
+    return ff_diag_set(d, FF_EUSAGE, NULL, "the simulated record would exceed "
+                       "%lu samples: raise dt or shorten the run", MAX_SAMPLES);
+  return FF_OK;
+}
+
+int ff_simulate_run(const struct ff_sim_params *p, struct ff_sim_result *r,
+                    struct ff_diag *d)
+{
+  struct sim s = { 0 };
+  int st;
+
+  memset(r, 0, sizeof *r);
+  if ((st = check_params(p, d)) != FF_OK)
+    return st;
+  s.p = p;
+  s.r = r;
+  s.d = d;
+  s.m.ms = p->solvent_g;
+  s.m.cpl = p->solvent.cp_liq_j_g_k;
+  s.m.cps = p->solvent.cp_sol_j_g_k;
+  s.m.lat = p->solvent.dh_fus_j_mol / p->solvent.m_g_mol;
+  s.m.h = p->solvent_g * p->solvent.cp_liq_j_g_k / p->tau_s;
+  s.m.stir = p->stir_w;
+  s.m.tf0 = p->solvent.tf_c;
+  s.m.dep = p->vant_hoff_i * p->solvent.kf_k_kg_mol * p->molality_mol_kg;
+  s.m.g = p->growth_rate;
+  s.m.xa = p->growth_area_frac;
+  s.m.lag = p->probe_lag_s;
+  r->true_fp_c = ff_sim_true_fp_c(p);
+  for (size_t c = 0; c < FF_SIM_MAX_CYCLES; c++)
+    r->nucleation_t_s[c] = r->supercool_k[c] = r->peak_c[c] =
+      r->freeze_end_t_s[c] = r->cycle_start_t_s[c] = NAN;
+
+  s.sys = (gsl_odeiv2_system){ rhs, jac, 3, &s.m };
+  s.drv = gsl_odeiv2_driver_alloc_y_new(&s.sys, gsl_odeiv2_step_msbdf,
+                                        1e-3, ODE_EPS_ABS, ODE_EPS_REL);
+  s.rng_phys = gsl_rng_alloc(gsl_rng_mt19937);
+  s.rng_meas = gsl_rng_alloc(gsl_rng_mt19937);
+  if (s.drv == NULL || s.rng_phys == NULL || s.rng_meas == NULL) {
+    st = ff_diag_set(d, FF_EIO, NULL, "out of memory");
+    goto out;
+  }
+  gsl_odeiv2_driver_set_hmax(s.drv, p->dt_s);
+  /* Two streams, so changing the noise does not change the supercooling. */
+  gsl_rng_set(s.rng_phys, p->seed);
+  gsl_rng_set(s.rng_meas, p->seed ^ 0x5bd1e995UL);
+  s.y[0] = s.y[2] = p->start_c;
+  s.y[1] = 0.0;
+  if ((st = record(&s)) != FF_OK)
+    goto out;
+  s.k_next = 1;
+  for (unsigned c = 0; c < p->cycles; c++) {
+    if ((st = cool_and_freeze(&s, c)) != FF_OK)
+      goto out;
+    if (c + 1 < p->cycles && (st = thaw(&s)) != FF_OK)
+      goto out;
+  }
+  st = FF_OK;
+out:
+  if (s.drv != NULL)
+    gsl_odeiv2_driver_free(s.drv);
+  gsl_rng_free(s.rng_phys);
+  gsl_rng_free(s.rng_meas);
+  if (st != FF_OK) {
+    double tf = r->true_fp_c;
+    ff_sim_result_release(r);
+    r->true_fp_c = tf;
+  }
+  return st;
+}
+
+static int put_num(FILE *f, double v)
+{
+  if (!isfinite(v))
+    return 0;
+  if (fabs(v) > 0.0 && fabs(v) < 1e-4)
+    return fprintf(f, "%.6f", v) < 0 ? -1 : 0;
+  return fprintf(f, "%.10g", v) < 0 ? -1 : 0;
+}
+
+int ff_simulate_write_csv(const struct ff_sim_result *r, FILE *f,
+                          struct ff_diag *d)
+{
+  if (fputs("time_s,T (C)\n", f) == EOF)
+    goto fail;
+  for (size_t i = 0; i < r->n; i++) {
+    if (put_num(f, r->t_s[i]) != 0 || fputc(',', f) == EOF ||
+        put_num(f, r->temp_c[i]) != 0 || fputc('\n', f) == EOF)
+      goto fail;
+  }
+  if (fflush(f) != 0 || ferror(f))
+    goto fail;
+  return FF_OK;
+fail:
+  return ff_diag_set(d, FF_EIO, NULL, "cannot write the simulated curve: %s",
+                     strerror(errno));
+}
