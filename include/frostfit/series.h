@@ -1,0 +1,179 @@
+/* frostfit/series.h - a whole experiment from a run sheet: import, detect,
+ * thermodynamics per run, regression per solute, molar mass of unknowns.
+ * The pipeline behind `frostfit series`; the last stage before output. */
+#ifndef FF_SERIES_H
+#define FF_SERIES_H
+
+#include <stdio.h>
+#include <stddef.h>
+#include <jansson.h>
+
+#include "frostfit/diag.h"
+#include "frostfit/sheet.h"
+#include "frostfit/solvent.h"
+#include "frostfit/formula.h"
+#include "frostfit/import.h"
+#include "frostfit/detect.h"
+#include "frostfit/thermo.h"
+#include "frostfit/regress.h"
+
+struct ff_series_opts {
+  const struct ff_solvent_table *solvents; /* required, borrowed */
+  const struct ff_atomic_table *atoms;     /* for formulas; NULL: none */
+  size_t mc_draws;             /* Monte Carlo draws per run (>= 1000; 0 =
+                                  no per-run check) */
+  size_t mc_fit_draws;         /* refits for u(i_limit) per solute (0 = no) */
+  unsigned long seed;          /* same seed, same Monte Carlo numbers */
+  double confidence;           /* of the regression intervals */
+  double balance_res_g;        /* balance resolution when the sheet has
+                                  none: 0.001 g (common practice, no source) */
+};
+#define FF_SERIES_OPTS_DEFAULT                                              \
+  { .solvents = NULL, .atoms = NULL, .mc_draws = 4000, .mc_fit_draws = 300, \
+    .seed = 20261201ul, .confidence = 0.95, .balance_res_g = 0.001 }
+
+/* Where the Kf of a run came from. */
+enum ff_kf_source {
+  FF_KF_NONE = 0,
+  FF_KF_SHEET,                 /* the run's own kf cell */
+  FF_KF_STANDARD,              /* calibrated by the standards of its solvent */
+  FF_KF_TABLE                  /* the solvent table */
+};
+/* "sheet", "standard", "table", "none" */
+const char *ff_kf_source_name(enum ff_kf_source s);
+
+/* One run: one row of the sheet, in sheet order. Plain data. */
+struct ff_series_run {
+  size_t row;                  /* index into the sheet's rows */
+  enum ff_status status;       /* FF_OK, or why it has no result */
+  struct ff_diag diag;         /* the reason, sheet:line:col or file:... */
+  const struct ff_solvent *solvent; /* borrowed from opts.solvents; NULL */
+
+  /* Freezing point (every role). */
+  int has_event;
+  struct ff_event event;       /* the freeze event used */
+  size_t dataset;              /* index into ff_series.ds */
+  size_t channel;              /* index into that dataset's ch[] */
+  double tf_c, u_tf_k;
+
+  /* Against the blank (everything but a blank without a blank). */
+  double tf_blank_c, u_tf_blank_k;
+  double depression_obs_k;     /* blank Tf - run Tf, as read */
+  double frozen_fraction;      /* applied correction f (0: none) */
+  int correction_applied;      /* 1 when f came from this run's supercooling */
+  double depression_k, u_depression_k; /* after the correction */
+
+  /* Amount of solute (samples, standards; masses for unknowns). */
+  double molality_mol_kg, u_molality_mol_kg;
+  double solvent_eff_g;        /* solvent incl. hydrate water when water */
+  double u_solute_g, u_solvent_g;
+
+  /* Kf used. */
+  double kf_k_kg_mol, u_kf_k_kg_mol;
+  enum ff_kf_source kf_source;
+  char kf_from[128];           /* standard run ids or solvent name */
+  double kf_cal_k_kg_mol;      /* standards: Kf this run gives, dT/(nu m) */
+  double u_kf_cal_k_kg_mol;
+
+  /* Particles (samples, standards). */
+  struct ff_particles particles;
+  int particles_known;
+  char particles_how[128];     /* "sheet", "formula NaCl: 1:1", ... */
+
+  /* Thermodynamics (samples, standards): thermo.h's results. */
+  struct ff_run_out th;
+  double mc_u_vant_hoff_i;     /* Monte Carlo u(i), NaN when not run */
+  int is_water;
+
+  /* Unknowns: apparent molar mass. */
+  double conc_g_kg;            /* g solute per kg solvent */
+  struct ff_mass_out mass;
+  double osmolality_osmol_kg;  /* depression / Kf, every role with a blank */
+};
+
+/* Kf calibrated from the standards of one solvent. */
+struct ff_series_kfcal {
+  char solvent[64];
+  size_t n;                    /* standards used */
+  double kf_k_kg_mol, u_kf_k_kg_mol; /* weighted mean */
+  char runs[128];              /* their run ids */
+};
+
+/* One solute (sample runs grouped by solute and solvent). */
+struct ff_series_solute {
+  char solute[128], solvent[64];
+  size_t n;
+  size_t *runs;                /* n indices into ff_series.runs, owned */
+  struct ff_particles particles;
+  int particles_known;
+  char particles_how[128];
+  double mean_tf_c;            /* mean freezing temperature of its runs */
+  double a_phi;                /* DH slope used (0 outside water) */
+  double kf_k_kg_mol;          /* Kf of the first run (for the ideal line) */
+  enum ff_status status;       /* FF_OK when at least one model fitted */
+  struct ff_diag diag;
+  struct ff_regress_result reg;
+  int has_mc;                  /* Monte Carlo of the particle model */
+  struct ff_mc_summary mc;
+};
+
+/* One unknown (unknown runs grouped by solute and solvent). */
+struct ff_series_unknown {
+  char solute[128], solvent[64];
+  size_t n;
+  size_t *runs;                /* owned */
+  enum ff_status status;
+  struct ff_diag diag;
+  struct ff_mm_result mm;
+};
+
+/* The whole result. _INIT, ff_series_run, then _release. */
+struct ff_series {
+  const struct ff_sheet *sheet;        /* borrowed */
+  size_t n_runs;
+  struct ff_series_run *runs;          /* one per sheet row */
+  size_t n_solutes;
+  struct ff_series_solute *solutes;
+  size_t n_unknowns;
+  struct ff_series_unknown *unknowns;
+  size_t n_kfcal;
+  struct ff_series_kfcal *kfcal;
+  size_t n_ds;
+  struct ff_dataset **ds;              /* each data file read once, owned */
+  size_t n_failed;                     /* runs without a result */
+};
+#define FF_SERIES_INIT { 0 }
+
+/*
+ * Runs the pipeline over every row of sheet (rows the reader rejected keep
+ * their reason and get no result). Each run stands alone: a bad file or an
+ * untrusted freezing point is recorded in that run (and in the runs that
+ * need it as their blank or standard), the rest still go through.
+ * Returns FF_OK when every run and fit gave a result; otherwise FF_EINPUT
+ * when any run failed on bad input, else FF_EUNTRUSTED; d holds the first
+ * such problem. FF_EIO (out of memory, nothing usable) wins over both.
+ */
+int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
+                  struct ff_series *out, struct ff_diag *d);
+
+void ff_series_release(struct ff_series *s);
+
+/*
+ * Particles of one formula unit, from (in this order) the z_plus/z_minus
+ * cells, a formula recognised as a simple salt (one cation, one anion of a
+ * built-in list: the charges follow from the anion's charge and
+ * neutrality), the particles cell alone (1 non-electrolyte, 2 -> 1:1,
+ * 3 -> 2:1, 4 -> 3:1, 5 -> 3:2). Returns 1 when known (how says which way),
+ * 0 when not.
+ */
+int ff_series_particles(const struct ff_sheet_row *r, struct ff_particles *p,
+                        char *how, size_t n);
+
+/* The --json document (DESIGN.md contract). New reference; NULL: no memory. */
+json_t *ff_series_to_json(const struct ff_series *s);
+
+/* The spreadsheet CSV: one row per run, then solute and unknown rows
+ * (docs/formats/series-output.md). Returns 0, -1 when a write failed. */
+int ff_series_write_csv(const struct ff_series *s, FILE *f);
+
+#endif /* FF_SERIES_H */

@@ -1,0 +1,677 @@
+/* series.c - the series pipeline: sheet rows -> data files -> freeze events
+ * -> per-run thermodynamics; fits per solute in series_fit.c. */
+#include "frostfit/series.h"
+
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <strings.h>
+
+#include <gsl/gsl_randist.h>
+#include <gsl/gsl_rng.h>
+
+#include "series_impl.h"
+
+const char *ff_kf_source_name(enum ff_kf_source s)
+{
+  switch (s) {
+  case FF_KF_SHEET: return "sheet";
+  case FF_KF_STANDARD: return "standard";
+  case FF_KF_TABLE: return "table";
+  case FF_KF_NONE: break;
+  }
+  return "none";
+}
+
+/* Records why run r has no result: sheet:line (column c when >= 0), the
+ * message prefixed with the run id. The first reason wins. */
+void series_fail(const struct ff_sheet *sh, struct ff_series_run *r, int col,
+                 enum ff_status st, const char *fmt, ...)
+{
+  const struct ff_sheet_row *row = &sh->row[r->row];
+  struct ff_loc at = { sh->path, row->line,
+                       col >= 0 ? sh->col[col] : 0 };
+  char text[600];
+  va_list ap;
+
+  if (r->status != FF_OK)
+    return;
+  va_start(ap, fmt);
+  vsnprintf(text, sizeof text, fmt, ap);
+  va_end(ap);
+  r->status = st;
+  ff_diag_set(&r->diag, st, &at, "run '%s': %s", row->run, text);
+}
+
+/* ---- data files and freeze events, each read once ---- */
+
+struct channel_cache {
+  size_t ds;
+  long ch;
+  int status;
+  struct ff_diag diag;
+  struct ff_event_list ev;
+};
+
+struct file_cache {
+  char path[1600];
+  long ds;                    /* index into out->ds, -1 when it failed */
+  struct ff_diag diag;
+};
+
+struct caches {
+  struct file_cache *f;
+  size_t nf, capf;
+  struct channel_cache *c;
+  size_t nc, capc;
+};
+
+static void caches_release(struct caches *k)
+{
+  for (size_t i = 0; i < k->nc; i++)
+    ff_event_list_release(&k->c[i].ev);
+  free(k->c);
+  free(k->f);
+}
+
+/* The dataset of path, reading it the first time. -1 with *why set when
+ * the file cannot be used; -2 when out of memory. */
+static long dataset_of(struct ff_series *out, struct caches *k,
+                       const char *path, const struct ff_diag **why)
+{
+  struct ff_import_opts io = FF_IMPORT_OPTS_DEFAULT;
+  struct file_cache *fc;
+
+  for (size_t i = 0; i < k->nf; i++)
+    if (strcmp(k->f[i].path, path) == 0) {
+      *why = &k->f[i].diag;
+      return k->f[i].ds;
+    }
+  if (k->nf == k->capf) {
+    size_t cap = k->capf ? 2 * k->capf : 8;
+    struct file_cache *v = realloc(k->f, cap * sizeof *v);
+    if (v == NULL)
+      return -2;
+    k->f = v;
+    k->capf = cap;
+  }
+  fc = &k->f[k->nf++];
+  memset(fc, 0, sizeof *fc);
+  snprintf(fc->path, sizeof fc->path, "%s", path);
+  fc->ds = -1;
+  *why = &fc->diag;
+  struct ff_dataset *ds = ff_import_file(path, &io, &fc->diag);
+  if (ds == NULL)
+    return fc->diag.status == FF_EIO && strstr(fc->diag.msg, "memory")
+           ? -2 : -1;
+  struct ff_dataset **v = realloc(out->ds, (out->n_ds + 1) * sizeof *v);
+  if (v == NULL) {
+    ff_dataset_free(ds);
+    return -2;
+  }
+  out->ds = v;
+  out->ds[out->n_ds] = ds;
+  fc->ds = (long)out->n_ds++;
+  return fc->ds;
+}
+
+/* The freeze events of one channel, detected the first time. */
+static struct channel_cache *events_of(struct ff_series *out, struct caches *k,
+                                       size_t ds, long ch,
+                                       const struct ff_solvent *solvent,
+                                       double res_k)
+{
+  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
+  const struct ff_dataset *set = out->ds[ds];
+  struct channel_cache *cc;
+  double *t, *y;
+  size_t n;
+
+  for (size_t i = 0; i < k->nc; i++)
+    if (k->c[i].ds == ds && k->c[i].ch == ch)
+      return &k->c[i];
+  if (k->nc == k->capc) {
+    size_t cap = k->capc ? 2 * k->capc : 8;
+    struct channel_cache *v = realloc(k->c, cap * sizeof *v);
+    if (v == NULL)
+      return NULL;
+    k->c = v;
+    k->capc = cap;
+  }
+  cc = &k->c[k->nc++];
+  memset(cc, 0, sizeof *cc);
+  cc->ds = ds;
+  cc->ch = ch;
+  t = malloc((set->n + 1) * sizeof *t);
+  y = malloc((set->n + 1) * sizeof *y);
+  if (t == NULL || y == NULL) {
+    free(t);
+    free(y);
+    k->nc--;
+    return NULL;
+  }
+  n = ff_dataset_channel_xy(set, (size_t)ch, t, y);
+  p.solvent = solvent;
+  if (isfinite(res_k) && res_k > 0)
+    p.resolution_k = res_k;
+  cc->status = ff_detect_run(t, y, n, &p, &cc->ev, &cc->diag);
+  free(t);
+  free(y);
+  return cc;
+}
+
+/* Import, channel, detection, cycle: the freezing point of one run. */
+static int freezing_point(struct ff_series *out, struct caches *k,
+                          const struct ff_sheet *sh, struct ff_series_run *r)
+{
+  const struct ff_sheet_row *row = &sh->row[r->row];
+  const struct ff_diag *why = NULL;
+  struct ff_diag cd = FF_DIAG_INIT;
+  char buf[1200];
+  long ds, ch;
+  size_t pick;
+
+  ds = dataset_of(out, k, row->path, &why);
+  if (ds == -2)
+    return FF_EIO;
+  if (ds < 0) {
+    series_fail(sh, r, FF_SC_FILE, why->status, "%s",
+                ff_diag_format(why, buf, sizeof buf));
+    return FF_OK;
+  }
+  ch = ff_dataset_find_channel(out->ds[ds], row->channel, &cd);
+  if (ch < 0) {
+    series_fail(sh, r, FF_SC_CHANNEL, FF_EINPUT, "channel '%s' of '%s': %s",
+                row->channel, row->path, cd.msg);
+    return FF_OK;
+  }
+  struct channel_cache *cc = events_of(out, k, (size_t)ds, ch, r->solvent,
+                                       row->thermo_res_k);
+  if (cc == NULL)
+    return FF_EIO;
+  r->dataset = (size_t)ds;
+  r->channel = (size_t)ch;
+  if (cc->status == FF_EIO)
+    return FF_EIO;
+  if (cc->status != FF_OK) {
+    series_fail(sh, r, FF_SC_CHANNEL, cc->status, "channel '%s' of '%s': %s",
+                out->ds[ds]->ch[ch].name, row->path, cc->diag.msg);
+    return FF_OK;
+  }
+  if (cc->ev.n == 0) {
+    series_fail(sh, r, FF_SC_CHANNEL, FF_EUNTRUSTED, "no freeze event in "
+                "channel '%s' of '%s'", out->ds[ds]->ch[ch].name, row->path);
+    return FF_OK;
+  }
+  if (row->cycle == FF_SHEET_CYCLE_LAST) {
+    pick = cc->ev.n - 1;
+  } else if (row->cycle > cc->ev.n) {
+    series_fail(sh, r, FF_SC_CYCLE, FF_EINPUT, "cycle %u asked for, but "
+                "channel '%s' of '%s' has %zu freeze event%s", row->cycle,
+                out->ds[ds]->ch[ch].name, row->path, cc->ev.n,
+                cc->ev.n == 1 ? "" : "s");
+    return FF_OK;
+  } else {
+    pick = row->cycle - 1;
+  }
+  r->event = cc->ev.v[pick];
+  r->has_event = 1;
+  if (!r->event.trusted || !isfinite(r->event.freezing_point_c)) {
+    series_fail(sh, r, FF_SC_CYCLE, FF_EUNTRUSTED, "freezing point of cycle "
+                "%u in channel '%s' not trusted: %s", r->event.cycle,
+                out->ds[ds]->ch[ch].name,
+                r->event.status_reason[0] ? r->event.status_reason
+                : "no method gave a value");
+    return FF_OK;
+  }
+  r->tf_c = r->event.freezing_point_c;
+  r->u_tf_k = r->event.u_freezing_point_k;
+  if (!isfinite(r->u_tf_k) || r->u_tf_k < 0)
+    r->u_tf_k = 0;
+  return FF_OK;
+}
+
+/* ---- per-run numbers ---- */
+
+/* The frozen-fraction correction belongs to readings taken after
+ * recalescence (plateau, peak): ice formed during recalescence has already
+ * concentrated the liquid. Readings taken back at the nucleation instant
+ * (extrapolate, intersect, model) or without supercooling (break) are not
+ * corrected again (REFERENCES.md 7.2, step 6: common practice, no source). */
+static int needs_correction(const struct ff_event *e)
+{
+  return (e->method == FF_METHOD_PLATEAU || e->method == FF_METHOD_PEAK)
+         && isfinite(e->supercooling_k) && e->supercooling_k > 0;
+}
+
+static void run_init(struct ff_series_run *r, size_t row)
+{
+  memset(r, 0, sizeof *r);
+  r->row = row;
+  r->tf_c = r->u_tf_k = r->tf_blank_c = r->u_tf_blank_k = NAN;
+  r->depression_obs_k = r->depression_k = r->u_depression_k = NAN;
+  r->frozen_fraction = NAN;
+  r->molality_mol_kg = r->u_molality_mol_kg = r->solvent_eff_g = NAN;
+  r->u_solute_g = r->u_solvent_g = NAN;
+  r->kf_k_kg_mol = r->u_kf_k_kg_mol = NAN;
+  r->kf_cal_k_kg_mol = r->u_kf_cal_k_kg_mol = NAN;
+  r->mc_u_vant_hoff_i = NAN;
+  r->conc_g_kg = NAN;
+  r->osmolality_osmol_kg = NAN;
+  r->th.depression_obs_k = r->th.frozen_fraction = r->th.depression_k = NAN;
+  r->th.u_depression_k = r->th.ideal_depression_k = NAN;
+  r->th.vant_hoff_i = r->th.u_vant_hoff_i = NAN;
+  r->th.osmotic_coefficient = r->th.u_osmotic_coefficient = NAN;
+  r->th.osmolality_osmol_kg = r->th.u_osmolality_osmol_kg = NAN;
+  r->th.activity = r->th.osmolality_exact_osmol_kg = NAN;
+  r->th.osmotic_coefficient_exact = NAN;
+  r->mass.m_g_mol = r->mass.u_m_g_mol = r->mass.expanded_m_g_mol = NAN;
+  r->mass.mc_mean_g_mol = r->mass.mc_u_g_mol = NAN;
+  r->mass.mc_lo95_g_mol = r->mass.mc_hi95_g_mol = NAN;
+}
+
+/* Depression against the blank, with the frozen-fraction correction where
+ * it applies. Used for every role (thermo's ff_thermo_run repeats the same
+ * arithmetic for samples and standards, from the same inputs). */
+static void depression(const struct ff_sheet *sh, struct ff_series_run *r,
+                       const struct ff_series_run *b)
+{
+  const struct ff_sheet_row *row = &sh->row[r->row];
+  double f = 0;
+
+  if (b->status != FF_OK) {
+    series_fail(sh, r, FF_SC_BLANK, b->status, "its blank '%s' has no "
+                "freezing point", sh->row[b->row].run);
+    return;
+  }
+  r->tf_blank_c = b->tf_c;
+  r->u_tf_blank_k = b->u_tf_k;
+  r->depression_obs_k = b->tf_c - r->tf_c;
+  r->u_depression_k = ff_gum_u_depression(0.0, b->u_tf_k, r->u_tf_k);
+  r->depression_k = r->depression_obs_k;
+  r->frozen_fraction = 0;
+  if (row->role == FF_SHEET_BLANK)
+    return;             /* a blank against a blank: drift, not depression */
+  if (!(r->depression_obs_k > 0)) {
+    series_fail(sh, r, -1, FF_EUNTRUSTED, "froze at or above its blank "
+                "(depression %.4f K): no depression to analyse",
+                r->depression_obs_k);
+    return;
+  }
+  if (needs_correction(&r->event) && r->solvent != NULL) {
+    double dt = ff_thermo_supercool_correct(r->depression_obs_k,
+                                            r->event.supercooling_k,
+                                            ff_solvent_frozen_per_k(r->solvent),
+                                            &f);
+    if (!isfinite(dt)) {
+      series_fail(sh, r, -1, FF_EUNTRUSTED, "supercooling of %.3f K is too "
+                  "large for the frozen-fraction correction",
+                  r->event.supercooling_k);
+      return;
+    }
+    r->depression_k = dt;
+    r->u_depression_k *= 1.0 - f;
+    r->frozen_fraction = f;
+    r->correction_applied = 1;
+  }
+}
+
+static double balance_u(const struct ff_sheet_row *row,
+                        const struct ff_series_opts *o)
+{
+  double res = isfinite(row->balance_res_g) ? row->balance_res_g
+                                            : o->balance_res_g;
+  /* Tare and gross reading, each rectangular (GUM 4.3.7). */
+  return ff_gum_u_mass(res, 2, 0.0);
+}
+
+static void molality(const struct ff_sheet *sh, struct ff_series_run *r,
+                     const struct ff_series_opts *o)
+{
+  const struct ff_sheet_row *row = &sh->row[r->row];
+
+  r->u_solute_g = r->u_solvent_g = balance_u(row, o);
+  if (isfinite(row->molality_mol_kg)) {
+    r->molality_mol_kg = row->molality_mol_kg;
+    r->u_molality_mol_kg = 0;   /* typed as exact; no mass budget */
+    return;
+  }
+  r->molality_mol_kg = ff_thermo_molality_hydrate(
+    row->solute_g, row->m_weighed_g_mol, row->waters, FF_M_WATER_G_MOL,
+    row->solvent_g, r->is_water, &r->solvent_eff_g);
+  if (!isfinite(r->molality_mol_kg)) {
+    series_fail(sh, r, FF_SC_SOLUTE_G, FF_EINPUT, "no molality from "
+                "solute_g %g, solvent_g %g and %g g/mol", row->solute_g,
+                row->solvent_g, row->m_weighed_g_mol);
+    return;
+  }
+  r->u_molality_mol_kg = ff_gum_u_molality(
+    r->molality_mol_kg, row->solute_g, r->u_solute_g, r->solvent_eff_g,
+    r->u_solvent_g, row->m_weighed_g_mol, 0.0);
+}
+
+/* Monte Carlo of i = dT/(Kf m) with Gaussian inputs: the cross-check of
+ * the GUM first-order value (JCGM 101 idea; GSL's mt19937). */
+static double mc_u_i(const struct ff_series_run *r, size_t draws,
+                     unsigned long seed)
+{
+  gsl_rng *g;
+  double mean = 0, m2 = 0;
+
+  if (draws < 1000)
+    return NAN;
+  g = gsl_rng_alloc(gsl_rng_mt19937);
+  if (g == NULL)
+    return NAN;
+  gsl_rng_set(g, seed);
+  for (size_t k = 0; k < draws; k++) {
+    double dt = r->depression_k + gsl_ran_gaussian(g, r->u_depression_k);
+    double m = r->molality_mol_kg
+               + gsl_ran_gaussian(g, r->u_molality_mol_kg);
+    double kf = r->kf_k_kg_mol + gsl_ran_gaussian(g, r->u_kf_k_kg_mol);
+    double i = dt / (kf * m);
+    double delta = i - mean;
+    mean += delta / (double)(k + 1);
+    m2 += delta * (i - mean);
+  }
+  gsl_rng_free(g);
+  return sqrt(m2 / (double)(draws - 1));
+}
+
+static void thermo(const struct ff_sheet *sh, struct ff_series_run *r,
+                   const struct ff_series_opts *o)
+{
+  struct ff_run_in in = FF_RUN_IN_INIT;
+  struct ff_fusion water = FF_FUSION_WATER, other;
+  struct ff_diag td = FF_DIAG_INIT;
+
+  in.tf_blank_c = r->tf_blank_c;
+  in.tf_sample_c = r->tf_c;
+  in.u_tf_blank_k = r->u_tf_blank_k;
+  in.u_tf_sample_k = r->u_tf_k;
+  in.thermo_res_k = 0;        /* already in each event's u (detector) */
+  in.molality_mol_kg = r->molality_mol_kg;
+  in.u_molality_mol_kg = r->u_molality_mol_kg;
+  in.kf_k_kg_mol = r->kf_k_kg_mol;
+  in.u_kf_k_kg_mol = r->u_kf_k_kg_mol;
+  in.nu = r->particles_known ? (double)r->particles.nu : NAN;
+  if (r->correction_applied) {
+    in.supercool_k = r->event.supercooling_k;
+    in.frozen_per_k = ff_solvent_frozen_per_k(r->solvent);
+  }
+  if (r->is_water)
+    in.fusion = &water;
+  else if (ff_fusion_from_solvent(r->solvent, &other, &td) == FF_OK)
+    in.fusion = &other;
+  ff_diag_clear(&td);
+  if (ff_thermo_run(&in, &r->th, &td) != FF_OK) {
+    series_fail(sh, r, -1, td.status, "%s", td.msg);
+    return;
+  }
+  r->mc_u_vant_hoff_i = mc_u_i(r, o->mc_draws, o->seed + r->row);
+}
+
+static void unknown_mass(const struct ff_sheet *sh, struct ff_series_run *r,
+                         const struct ff_series_opts *o)
+{
+  const struct ff_sheet_row *row = &sh->row[r->row];
+  struct ff_mass_in in;
+  struct ff_diag md = FF_DIAG_INIT;
+  double res = isfinite(row->balance_res_g) ? row->balance_res_g
+                                            : o->balance_res_g;
+  int st;
+
+  r->u_solute_g = r->u_solvent_g = balance_u(row, o);
+  r->conc_g_kg = 1000.0 * row->solute_g / row->solvent_g;
+  in.kf = (struct ff_quantity){ r->kf_k_kg_mol, r->u_kf_k_kg_mol, 0, 0 };
+  in.solute_g = (struct ff_quantity){ row->solute_g, 0, res / 2, 2 };
+  in.solvent_g = (struct ff_quantity){ row->solvent_g, 0, res / 2, 2 };
+  in.depression_k = (struct ff_quantity){ r->depression_k,
+                                          r->u_depression_k, 0, 0 };
+  if (o->mc_draws >= 1000)
+    st = ff_thermo_molar_mass_mc(&in, o->mc_draws, o->seed + r->row,
+                                 &r->mass, &md);
+  else
+    st = ff_thermo_molar_mass(&in, &r->mass, &md);
+  if (st != FF_OK)
+    series_fail(sh, r, -1, md.status, "%s", md.msg);
+}
+
+/* ---- Kf: sheet, standards of the solvent, table ---- */
+
+static const struct ff_series_kfcal *kfcal_of(const struct ff_series *s,
+                                              const char *solvent)
+{
+  for (size_t k = 0; k < s->n_kfcal; k++)
+    if (strcasecmp(s->kfcal[k].solvent, solvent) == 0)
+      return &s->kfcal[k];
+  return NULL;
+}
+
+static void choose_kf(const struct ff_series *s, const struct ff_sheet *sh,
+                      struct ff_series_run *r)
+{
+  const struct ff_sheet_row *row = &sh->row[r->row];
+  const struct ff_series_kfcal *cal;
+
+  if (isfinite(row->kf_k_kg_mol)) {
+    r->kf_k_kg_mol = row->kf_k_kg_mol;
+    r->u_kf_k_kg_mol = isfinite(row->u_kf_k_kg_mol) ? row->u_kf_k_kg_mol : 0;
+    r->kf_source = FF_KF_SHEET;
+    snprintf(r->kf_from, sizeof r->kf_from, "run %s", row->run);
+  } else if (row->role != FF_SHEET_STANDARD
+             && (cal = kfcal_of(s, r->solvent->name)) != NULL) {
+    r->kf_k_kg_mol = cal->kf_k_kg_mol;
+    r->u_kf_k_kg_mol = cal->u_kf_k_kg_mol;
+    r->kf_source = FF_KF_STANDARD;
+    snprintf(r->kf_from, sizeof r->kf_from, "%s", cal->runs);
+  } else {
+    r->kf_k_kg_mol = r->solvent->kf_k_kg_mol;
+    r->u_kf_k_kg_mol = 0;     /* the table's value taken as exact */
+    r->kf_source = FF_KF_TABLE;
+    snprintf(r->kf_from, sizeof r->kf_from, "%s", r->solvent->name);
+  }
+}
+
+/* Kf from one standard: Kf = dT / (nu m), nu = its particles (1 for the
+ * non-electrolyte a standard should be). Relative parts in quadrature. */
+static void calibrate(const struct ff_sheet *sh, struct ff_series_run *r)
+{
+  double nu = r->particles_known ? (double)r->particles.nu : 1.0;
+  double kf = r->depression_k / (nu * r->molality_mol_kg);
+  double rel = hypot(r->u_depression_k / r->depression_k,
+                     r->u_molality_mol_kg / r->molality_mol_kg);
+
+  if (!isfinite(kf) || !(kf > 0) || !isfinite(rel)) {
+    series_fail(sh, r, -1, FF_EUNTRUSTED, "no Kf from this standard");
+    return;
+  }
+  r->kf_cal_k_kg_mol = kf;
+  r->u_kf_cal_k_kg_mol = kf * rel;
+}
+
+static int collect_kfcal(struct ff_series *s, const struct ff_sheet *sh)
+{
+  for (size_t k = 0; k < s->n_runs; k++) {
+    struct ff_series_run *r = &s->runs[k];
+    struct ff_series_kfcal *c;
+
+    if (sh->row[r->row].role != FF_SHEET_STANDARD || r->status != FF_OK)
+      continue;
+    c = (struct ff_series_kfcal *)kfcal_of(s, r->solvent->name);
+    if (c == NULL) {
+      struct ff_series_kfcal *v = realloc(s->kfcal,
+                                          (s->n_kfcal + 1) * sizeof *v);
+      if (v == NULL)
+        return FF_EIO;
+      s->kfcal = v;
+      c = &s->kfcal[s->n_kfcal++];
+      memset(c, 0, sizeof *c);
+      snprintf(c->solvent, sizeof c->solvent, "%s", r->solvent->name);
+      c->kf_k_kg_mol = 0;     /* running sum of w Kf until the end */
+      c->u_kf_k_kg_mol = 0;   /* running sum of w */
+    }
+    /* Inverse-variance weights; u = 0 cannot happen (u(dT) > 0) but a
+     * zero weight sum would be caught below. */
+    double w = 1.0 / (r->u_kf_cal_k_kg_mol * r->u_kf_cal_k_kg_mol);
+    if (!isfinite(w))
+      w = 1e12;
+    c->kf_k_kg_mol += w * r->kf_cal_k_kg_mol;
+    c->u_kf_k_kg_mol += w;
+    size_t used = strlen(c->runs);
+    snprintf(c->runs + used, sizeof c->runs - used, "%s%s", used ? "+" : "",
+             sh->row[r->row].run);
+    c->n++;
+  }
+  for (size_t k = 0; k < s->n_kfcal; k++) {
+    struct ff_series_kfcal *c = &s->kfcal[k];
+    double sw = c->u_kf_k_kg_mol;
+    c->kf_k_kg_mol /= sw;
+    c->u_kf_k_kg_mol = 1.0 / sqrt(sw);
+  }
+  return FF_OK;
+}
+
+/* ---- the whole pipeline ---- */
+
+int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
+                  struct ff_series *out, struct ff_diag *d)
+{
+  struct caches k = { 0 };
+  int st = FF_OK;
+
+  memset(out, 0, sizeof *out);
+  out->sheet = sheet;
+  if (o == NULL || o->solvents == NULL)
+    return ff_diag_set(d, FF_EUSAGE, NULL, "the series needs a solvent "
+                       "table");
+  out->runs = calloc(sheet->n ? sheet->n : 1, sizeof *out->runs);
+  if (out->runs == NULL)
+    return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+  out->n_runs = sheet->n;
+
+  /* 1. Every good row: solvent, particles, freezing point. */
+  for (size_t i = 0; i < sheet->n && st == FF_OK; i++) {
+    struct ff_series_run *r = &out->runs[i];
+    const struct ff_sheet_row *row = &sheet->row[i];
+
+    run_init(r, i);
+    if (row->diag.status != FF_OK) {
+      r->status = row->diag.status;
+      r->diag = row->diag;
+      continue;
+    }
+    r->solvent = ff_solvent_find(o->solvents, row->solvent);
+    if (r->solvent == NULL) {
+      series_fail(sheet, r, FF_SC_SOLVENT, FF_EINPUT, "unknown solvent '%s'",
+                  row->solvent);
+      continue;
+    }
+    r->is_water = strcmp(r->solvent->name, "water") == 0;
+    r->particles_known = ff_series_particles(row, &r->particles,
+                                             r->particles_how,
+                                             sizeof r->particles_how);
+    st = freezing_point(out, &k, sheet, r);
+  }
+  caches_release(&k);
+  if (st != FF_OK)
+    return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+
+  /* 2. Blanks of blanks (drift checks), then standards, then Kf. */
+  for (size_t i = 0; i < out->n_runs; i++) {
+    struct ff_series_run *r = &out->runs[i];
+    const struct ff_sheet_row *row = &sheet->row[i];
+
+    if (r->status != FF_OK || row->blank_row < 0)
+      continue;
+    depression(sheet, r, &out->runs[row->blank_row]);
+    if (r->status != FF_OK || row->role != FF_SHEET_STANDARD)
+      continue;
+    molality(sheet, r, o);
+    if (r->status == FF_OK)
+      calibrate(sheet, r);
+  }
+  if (collect_kfcal(out, sheet) != FF_OK)
+    return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+
+  /* 3. Samples, standards (i against the table), unknowns. */
+  for (size_t i = 0; i < out->n_runs; i++) {
+    struct ff_series_run *r = &out->runs[i];
+    const struct ff_sheet_row *row = &sheet->row[i];
+
+    if (r->status != FF_OK || row->role == FF_SHEET_BLANK)
+      continue;
+    choose_kf(out, sheet, r);
+    r->osmolality_osmol_kg = r->depression_k / r->kf_k_kg_mol;
+    if (row->role == FF_SHEET_UNKNOWN) {
+      unknown_mass(sheet, r, o);
+      continue;
+    }
+    if (row->role == FF_SHEET_SAMPLE)
+      molality(sheet, r, o);
+    if (r->status == FF_OK)
+      thermo(sheet, r, o);
+  }
+
+  /* 4. Fits per solute and per unknown (series_fit.c). */
+  st = series_fit(out, sheet, o);
+  if (st == FF_EIO)
+    return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+
+  /* Overall status: bad input first, then untrusted. */
+  int any_input = 0, any_untrusted = 0;
+  const struct ff_diag *first = NULL;
+  for (size_t i = 0; i < out->n_runs; i++) {
+    const struct ff_series_run *r = &out->runs[i];
+    if (r->status == FF_OK)
+      continue;
+    out->n_failed++;
+    any_input |= r->status == FF_EINPUT || r->status == FF_EUSAGE;
+    any_untrusted |= r->status == FF_EUNTRUSTED;
+    if (r->status == FF_EIO)
+      return ff_diag_set(d, FF_EIO, NULL, "%s", r->diag.msg);
+    if (first == NULL)
+      first = &r->diag;
+  }
+  /* A solute with fewer than three runs cannot be fitted; that is not a
+   * failure of the series (its runs stand on their own). */
+  for (size_t i = 0; i < out->n_solutes; i++)
+    if (out->solutes[i].status != FF_OK && out->solutes[i].n >= 3) {
+      any_untrusted = 1;
+      if (first == NULL)
+        first = &out->solutes[i].diag;
+    }
+  for (size_t i = 0; i < out->n_unknowns; i++)
+    if (out->unknowns[i].status != FF_OK) {
+      any_untrusted = 1;
+      if (first == NULL)
+        first = &out->unknowns[i].diag;
+    }
+  if (first != NULL && d != NULL && d->status == FF_OK) {
+    *d = *first;
+    d->status = any_input ? FF_EINPUT : FF_EUNTRUSTED;
+  }
+  return any_input ? FF_EINPUT : any_untrusted ? FF_EUNTRUSTED : FF_OK;
+}
+
+void ff_series_release(struct ff_series *s)
+{
+  if (s == NULL)
+    return;
+  for (size_t i = 0; i < s->n_solutes; i++) {
+    free(s->solutes[i].runs);
+    ff_regress_result_release(&s->solutes[i].reg);
+  }
+  for (size_t i = 0; i < s->n_unknowns; i++)
+    free(s->unknowns[i].runs);
+  for (size_t i = 0; i < s->n_ds; i++)
+    ff_dataset_free(s->ds[i]);
+  free(s->solutes);
+  free(s->unknowns);
+  free(s->kfcal);
+  free(s->ds);
+  free(s->runs);
+  memset(s, 0, sizeof *s);
+}
