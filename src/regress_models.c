@@ -690,6 +690,12 @@ int ff_regress_monte_carlo(const struct ff_regress_input *in,
   if (!in || !in->u_i)
     return ff_diag_set(d, FF_EINPUT, NULL, "Monte Carlo needs the "
                        "uncertainties of i");
+  /* u(m) is used only here, so it is checked only here: a missing u(m)
+   * must not stop the fits themselves. */
+  for (size_t i = 0; in->u_m_mol_kg && i < in->n; i++)
+    if (!(isfinite(in->u_m_mol_kg[i]) && in->u_m_mol_kg[i] >= 0.0))
+      return ff_diag_set(d, FF_EINPUT, NULL, "Monte Carlo: point %zu: "
+                         "uncertainty of m must be a number >= 0", i + 1);
   if (n_draws < 10)
     return ff_diag_set(d, FF_EUSAGE, NULL, "Monte Carlo needs at least 10 "
                        "draws, got %zu", n_draws);

@@ -195,10 +195,6 @@ int ff_rg_check_input(const struct ff_regress_input *in, struct ff_diag *d)
     if (in->u_i && !(isfinite(in->u_i[i]) && in->u_i[i] > 0.0))
       return ff_diag_set(d, FF_EINPUT, NULL, "regression: point %zu: "
                          "uncertainty of i must be positive", i + 1);
-    if (in->u_m_mol_kg && !(isfinite(in->u_m_mol_kg[i]) &&
-                            in->u_m_mol_kg[i] >= 0.0))
-      return ff_diag_set(d, FF_EINPUT, NULL, "regression: point %zu: "
-                         "uncertainty of m must be >= 0", i + 1);
   }
   if (!(isfinite(in->a_phi) && in->a_phi >= 0.0))
     return ff_diag_set(d, FF_EINPUT, NULL, "regression: A_phi must be >= 0");

@@ -618,6 +618,24 @@ Test(regress, monte_carlo_matches_propagation_sqrt, .init = setup)
   expect_mc(FF_REGRESS_SQRT_LINEAR);
 }
 
+Test(regress, bad_u_m_stops_only_the_monte_carlo, .init = setup)
+{
+  struct salt s;
+  double um[5] = { 1e-5, 1e-5, NAN, 1e-5, 1e-5 };
+  struct ff_regress_result r = FF_REGRESS_RESULT_INIT;
+  struct ff_mc_summary mc;
+  struct ff_diag d = FF_DIAG_INIT;
+
+  load_salt("KCl", &s);
+  struct ff_regress_input in = salt_input(&s, 0);
+  in.u_m_mol_kg = um;
+  cr_expect_eq(ff_regress_solute(&in, NULL, &r, &d), FF_OK, "%s", d.msg);
+  cr_expect_eq(ff_regress_monte_carlo(&in, FF_REGRESS_DEBYE_HUCKEL, NULL, 50,
+                                      7UL, &mc, &d), FF_EINPUT);
+  cr_expect(strstr(d.msg, "point 3") != NULL, "%s", d.msg);
+  ff_regress_result_release(&r);
+}
+
 Test(regress, monte_carlo_refuses_fixed_limit, .init = setup)
 {
   struct salt s;

@@ -48,7 +48,9 @@ struct ff_regress_input {
   const double *u_i;           /* standard uncertainty of i_obs, > 0;
                                   NULL: equal weights, scale from scatter */
   const double *u_m_mol_kg;    /* standard uncertainty of m; NULL = exact.
-                                  Used by the Monte Carlo check only */
+                                  Used (and checked) by the Monte Carlo
+                                  check only; the propagated u(i_limit)
+                                  does not include it */
   struct ff_particles p;
   double a_phi;                /* Debye-Huckel osmotic slope A_phi at the
                                   working temperature, kg^1/2 mol^-1/2
@@ -253,7 +255,9 @@ struct ff_mc_summary {
 /*
  * Perturbs i_obs (and m when u_m_mol_kg is given) by normal draws with their
  * standard uncertainties, n_draws times (seeded gsl_rng mt19937), refits the
- * model, and summarises i_limit. Needs in->u_i. FF_EUNTRUSTED when the
+ * model, and summarises i_limit. Needs in->u_i; FF_EINPUT when a u(m) is
+ * negative or not a number. Pass u_m_mol_kg = NULL to compare like with
+ * like against u_propagated. FF_EUNTRUSTED when the
  * unperturbed fit fails, the model's limit is fixed, or fewer than 90 % of
  * the refits succeed; FF_EIO when out of memory.
  */
