@@ -19,6 +19,8 @@
 /* Slope before a break must exceed the slope after by this factor: an
  * exponential approach to the bath with tau > 15 s never does over 30 s. */
 #define BREAK_RATIO 8.0
+/* After a slope break the probe lag rounds the corner; settle this long. */
+#define BREAK_SETTLE_S 30.0
 /* A thaw is a rise of this much above the lowest point of the branch, K. */
 #define THAW_RISE_K 0.1
 /* Melted again: this far above the freezing plateau, K. */
@@ -293,8 +295,10 @@ static void fit_liquid(const struct dctx *c, struct ff_event *e, size_t lw0,
   }
   span = c->t[lw1 - 1] - c->t[lw0];
   /* The start of cooling carries the probe's and the tube's transients
-   * (and the rounded turn from warming): skip a tenth, at least 10 s. */
-  skip = fmax(10.0, 0.1 * span);
+   * (and the rounded turn from warming): a probe lag of 5 s still leaves
+   * 0.25 % of the initial offset after 30 s, and that biases Tb and tau.
+   * Skip 30 s (at most a third of a short branch), at least a tenth. */
+  skip = fmax(fmin(30.0, span / 3.0), 0.1 * span);
   a = dd_index_at(c, c->t[lw0] + skip);
   if (span < c->p->min_liquid_s || a + 3 >= lw1)
     e->flags |= FF_FLAG_LIQUID_SHORT;
@@ -324,10 +328,17 @@ static void choose(const struct dctx *c, struct ff_event *e)
   const struct ff_estimate *es;
 
   if (m == FF_METHOD_AUTO) {
-    if (e->flags & FF_FLAG_NO_NUCLEATION) {
-      m = FF_METHOD_BREAK;
-      snprintf(e->method_reason, sizeof e->method_reason, "no supercooling "
-               "seen: two straight segments with a fitted breakpoint");
+    if (e->est[FF_METHOD_MODEL].ok && e->est[FF_METHOD_PLATEAU].ok
+               && fabs(e->model_delta_k) < 3.0 * e->model_u_delta_k
+               && e->est[FF_METHOD_PLATEAU].u_k
+                  < e->est[FF_METHOD_MODEL].u_k) {
+      /* The model finds no depression (a pure solvent): the flat branch
+       * says the same with less extrapolation. */
+      m = FF_METHOD_PLATEAU;
+      snprintf(e->method_reason, sizeof e->method_reason, "flat branch and "
+               "the energy balance finds no solute (delta %.1f +- %.1f mK): "
+               "plateau level", 1e3 * e->model_delta_k,
+               1e3 * e->model_u_delta_k);
     } else if (e->est[FF_METHOD_MODEL].ok) {
       m = FF_METHOD_MODEL;
       snprintf(e->method_reason, sizeof e->method_reason, "liquid branch "
@@ -336,9 +347,13 @@ static void choose(const struct dctx *c, struct ff_event *e)
                e->liquid.bath_c, e->liquid.tau_s);
     } else if (e->est[FF_METHOD_PLATEAU].ok) {
       m = FF_METHOD_PLATEAU;
-      snprintf(e->method_reason, sizeof e->method_reason, "flat branch after "
-               "recalescence, no Newton fit of the liquid branch: plateau "
-               "level");
+      snprintf(e->method_reason, sizeof e->method_reason, "flat freezing "
+               "branch, no Newton fit of the liquid branch: plateau level");
+    } else if (e->flags & FF_FLAG_NO_NUCLEATION) {
+      m = FF_METHOD_BREAK;
+      snprintf(e->method_reason, sizeof e->method_reason, "no supercooling "
+               "seen and no Newton fit of the liquid branch: two straight "
+               "segments with a fitted breakpoint");
     } else if (e->est[FF_METHOD_EXTRAPOLATE].ok) {
       m = FF_METHOD_EXTRAPOLATE;
       snprintf(e->method_reason, sizeof e->method_reason, "no Newton fit of "
@@ -431,7 +446,7 @@ static void init_event(struct ff_event *e, unsigned cycle, double res)
   e->freezing_point_c = e->u_freezing_point_k = NAN;
   e->frozen_fraction = NAN;
   e->break_time_s = NAN;
-  e->model_tf0_c = e->model_delta_k = NAN;
+  e->model_tf0_c = e->model_delta_k = e->model_u_delta_k = NAN;
   e->freezing_branch_slope_k_s = NAN;
   e->resolution_k = res;
   for (int m = 0; m < FF_METHOD_COUNT; m++) {
@@ -481,10 +496,20 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
   else
     e->flags |= FF_FLAG_LIQUID_SHORT;
 
-  /* Settling: the probe needs a few of its time constants after the rise;
-   * the rise time measures them (lag plus ice growth). */
-  settle = p->settle_s >= 0.0 ? p->settle_s
-           : fmin(60.0, fmax(3.0 * c->dt, 1.5 * (c->t[pk] - c->t[m])));
+  /* Settling: the time to 90 % of the rise is about 2.3 probe time
+   * constants (plus the ice growth); three times it, counted from the
+   * nucleation, leaves about 0.1 % of the rise. The branch starts there,
+   * and never before the peak. */
+  {
+    size_t k90 = m;
+    double lvl = e->t_min_c + 0.9 * (e->peak_c - e->t_min_c);
+    while (k90 < pk && c->ys[k90] < lvl)
+      k90++;
+    settle = p->settle_s >= 0.0
+             ? p->settle_s
+             : fmin(60.0, fmax(3.0 * c->dt, 3.0 * (c->t[k90] - c->t[m])
+                                                - (c->t[pk] - c->t[m])));
+  }
   b0 = dd_index_at(c, c->t[pk] + settle);
   if (b0 >= b_end || c->t[b_end - 1] - c->t[b0] < p->min_branch_s) {
     e->flags |= FF_FLAG_BRANCH_SHORT;
@@ -587,7 +612,8 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
                         size_t k, size_t b_end, int thaw)
 {
   const struct ff_detect_params *p = c->p;
-  size_t lw0 = seg0, a, pe;
+  size_t lw0 = seg0, lw1, a, pe, pend, b0, s0, kb;
+  double settle = p->settle_s >= 0.0 ? p->settle_s : BREAK_SETTLE_S;
 
   e->flags |= FF_FLAG_NO_NUCLEATION;
   e->start_s = c->t[seg0];
@@ -596,36 +622,53 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
   for (size_t q = seg0; q < k; q++)
     if (c->ys[q] > c->ys[lw0])
       lw0 = q;
-  fit_liquid(c, e, lw0, k);
+  /* The corner is rounded by the probe lag: the liquid fits stop short. */
+  lw1 = dd_index_at(c, c->t[k] - 0.5 * BREAK_WINDOW_S);
+  if (lw1 > lw0 + 3)
+    fit_liquid(c, e, lw0, lw1);
+  else
+    e->flags |= FF_FLAG_LIQUID_SHORT;
   a = dd_index_at(c, c->t[k] - 120.0);
   if (a < lw0)
     a = lw0;
   pe = dd_index_at(c, c->t[k] + p->max_branch_s);
-  if (pe + 1 < b_end)
-    b_end = pe + 1;
-  dd_break(c, e, a, b_end);
+  pend = pe + 1 < b_end ? pe + 1 : b_end;
+  dd_break(c, e, a, pend);
   e->nucleation_time_s = isfinite(e->break_time_s) ? e->break_time_s
                                                    : c->t[k];
-  e->t_min_c = e->peak_c = c->ys[k];
-  e->peak_time_s = c->t[k];
+  kb = dd_index_at(c, e->nucleation_time_s);
+  e->t_min_c = e->peak_c = c->ys[kb];
+  e->peak_time_s = c->t[kb];
   e->recalescence_rise_k = 0.0;
-  e->frozen_fraction = 0.0;
-  e->branch_start_s = c->t[k];
+  b0 = dd_index_at(c, e->nucleation_time_s + settle);
+  e->branch_start_s = c->t[b0];
   e->branch_end_s = c->t[b_end - 1];
-  if (c->t[b_end - 1] - c->t[k] < p->min_branch_s) {
+  if (b0 >= b_end || c->t[b_end - 1] - c->t[b0] < p->min_branch_s) {
     e->flags |= FF_FLAG_BRANCH_SHORT;
     if (!thaw)
       e->flags |= FF_FLAG_AT_END;
   }
-  dd_plateau(c, e, k, b_end);
+  if (b0 + 1 < pend) {
+    dd_plateau(c, e, b0, pend);
+    dd_extrapolate(c, e, b0, pend);
+  }
+  s0 = dd_index_at(c, e->nucleation_time_s - BREAK_WINDOW_S);
+  if (s0 < lw0)
+    s0 = lw0;
+  if (b0 + 1 < b_end && s0 < b0)
+    dd_model(c, e, s0, b0, b_end);
+  if (!isfinite(e->frozen_fraction))
+    e->frozen_fraction = 0.0;
   snprintf(e->est[FF_METHOD_PEAK].why, sizeof e->est[FF_METHOD_PEAK].why,
            "no recalescence, so no maximum");
-  snprintf(e->est[FF_METHOD_MODEL].why, sizeof e->est[FF_METHOD_MODEL].why,
-           "no supercooling: nothing to correct");
+  snprintf(e->est[FF_METHOD_INTERSECT].why,
+           sizeof e->est[FF_METHOD_INTERSECT].why,
+           "no supercooling: the break method is the intersection");
   if (c->sigma > 0.02)
     e->flags |= FF_FLAG_NOISY;
   if (c->res >= 0.05)
     e->flags |= FF_FLAG_COARSE;
+  cross_check(c, e);
   choose(c, e);
 }
 

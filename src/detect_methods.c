@@ -464,10 +464,13 @@ void dd_break(const struct dctx *c, struct ff_event *e, size_t l0, size_t i1)
  * Frozen fraction x from the energy balance of the tube, integrated from a
  * liquid point s0 before nucleation (x = 0 there):
  *   C(x) dT/dt = -h (T - Tb) + L m dx/dt,  C(x) = m [(1 - x) cp_l + x cp_s],
- *   h = m cp_l / tau  (Newton fit of the liquid branch: Tb, tau),
- * so L dx = C(x)/m dT + cp_l (T - Tb) dt / tau. A thermometer that lags by a
- * first-order time constant sees the same relation delayed, so x(t) and T(t)
- * read from it stay paired. The quasi-equilibrium branch then follows the
+ *   h = m cp_l / tau  (Newton fit of the liquid branch: Tb, tau).
+ * Written with D = T - T_L, the departure from the extrapolated liquid curve
+ * T_L (which obeys dT_L = -(T_L - Tb) dt / tau):
+ *   L dx = C(x)/m dD + cp_l D dt / tau + (C(x)/m - cp_l) dT_L.
+ * D is zero before nucleation, so the start s0 does not matter, and a
+ * thermometer with first-order lag sees T and T_L lagged alike: x(t) and T(t)
+ * read from it stay paired (to first order in the lag), with no offset. The quasi-equilibrium branch then follows the
  * freezing point of the concentrated solution, T = Tf0 - delta / (1 - x):
  * linear in 1/(1 - x). Its value at x = 0 is the initial solution's.
  */
@@ -476,7 +479,7 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
 {
   struct ff_estimate *es = &e->est[FF_METHOD_MODEL];
   const struct ff_liquid_fit *l = &e->liquid;
-  double *x, tb, tau;
+  double *x, tau;
   size_t n, m = 0, pk;
   gsl_matrix *X = NULL, *cov = NULL;
   gsl_vector *w = NULL, *yv = NULL, *cf = NULL;
@@ -492,7 +495,6 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
     est_fail(es, "freezing branch too short");
     return;
   }
-  tb = l->bath_c;
   tau = l->tau_s;
   n = i1 - s0;
   x = malloc(n * sizeof *x);
@@ -505,10 +507,12 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
     size_t a = s0 + j - 1, b = a + 1;
     double xc = x[j - 1] < 0.0 ? 0.0 : (x[j - 1] > 1.0 ? 1.0 : x[j - 1]);
     double cap = (1.0 - xc) * c->cpl + xc * c->cps;
-    double tm = 0.5 * (c->ys[a] + c->ys[b]);
-    x[j] = x[j - 1] + (cap * (c->ys[b] - c->ys[a])
-                       + c->cpl * (tm - tb) * (c->t[b] - c->t[a]) / tau)
-                      / c->lat;
+    double la = ff_event_eval_liquid(e, c->t[a]),
+           lb = ff_event_eval_liquid(e, c->t[b]);
+    double da = c->ys[a] - la, db = c->ys[b] - lb;
+    x[j] = x[j - 1] + (cap * (db - da)
+                       + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) / tau
+                       + (cap - c->cpl) * (lb - la)) / c->lat;
   }
   pk = dd_index_at(c, e->peak_time_s);
   if (pk >= s0 && pk < i1)
@@ -543,6 +547,7 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
       double s2 = chisq / (double)(m - 2);
       double a = gsl_vector_get(cf, 0), b = gsl_vector_get(cf, 1);
       e->model_delta_k = -b;
+      e->model_u_delta_k = sqrt(gsl_matrix_get(cov, 1, 1) * s2);
       e->model_tf0_c = a - b;
       est_set(es, a, sqrt(gsl_matrix_get(cov, 0, 0) * s2));
     } else {

@@ -112,6 +112,7 @@ struct ff_event {
   double resolution_k;             /* used for the rectangular term */
   double break_time_s;             /* break method: fitted breakpoint */
   double model_tf0_c, model_delta_k; /* model: T = tf0 - delta/(1 - x) */
+  double model_u_delta_k;          /* standard uncertainty of delta */
   struct ff_liquid_fit liquid;     /* Newton fit (kind 1) when possible */
   struct ff_liquid_fit liquid_line;/* the textbook straight liquid line */
   struct ff_branch_fit branch;
