@@ -281,6 +281,10 @@ int ff_thermo_run(const struct ff_run_in *in, struct ff_run_out *out,
                              in->u_tf_sample_k);
   dt = o.depression_obs_k;
   if (!isnan(in->supercool_k)) {
+    if (!pos(in->frozen_per_k))
+      return ff_diag_set(d, FF_EINPUT, NULL, "supercooling correction asked "
+                         "for, but the solvent's frozen fraction per kelvin "
+                         "(c_p / L_fus) is unknown");
     dt = ff_thermo_supercool_correct(o.depression_obs_k, in->supercool_k,
                                      in->frozen_per_k, &f);
     if (!isfinite(dt))

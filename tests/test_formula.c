@@ -184,3 +184,30 @@ Test(formula, loader_reports_bad_cells)
   ff_atomic_table_release(&t);
   unlink(path);
 }
+
+Test(formula, random_text_never_crashes, .init = load, .fini = unload)
+{
+  /* Random strings over the formula alphabet plus junk: every parse either
+   * succeeds with a finite positive mass or fails with a column inside
+   * the text (run under the sanitizers to catch overruns). */
+  static const char alpha[] = "HCNOSPKClNaCuFe()[]{}*.0123456789^+- xh\xb7";
+  unsigned long seed = 12345;
+  char text[24];
+  for (int k = 0; k < 20000; k++) {
+    size_t n = (size_t)(seed % 20);
+    for (size_t j = 0; j < n; j++) {
+      seed = seed * 6364136223846793005UL + 1442695040888963407UL;
+      text[j] = alpha[(seed >> 33) % (sizeof alpha - 1)];
+    }
+    text[n] = '\0';
+    seed = seed * 6364136223846793005UL + 1442695040888963407UL;
+    struct ff_formula f;
+    struct ff_diag d = FF_DIAG_INIT;
+    int rc = ff_formula_parse(&tab, text, &f, NULL, 0, &d);
+    if (rc == FF_OK)
+      cr_assert(isfinite(f.m_g_mol) && f.m_g_mol > 0, "'%s'", text);
+    else
+      cr_assert(rc == FF_EINPUT && d.col >= 1 && d.col <= n + 1,
+                "'%s': rc %d col %lu", text, rc, d.col);
+  }
+}

@@ -224,6 +224,23 @@ Test(thermo, water_activity_against_iapws_table, .init = setup)
   }
 }
 
+Test(thermo, activity_series_first_coefficient, .init = setup)
+{
+  /* -ln a_w = a theta + ..., a = dH0/(R T0^2) = 9.682698e-3 1/K at
+   * T0 = 273.152519 K (REFERENCES section 10 #5, IAPWS computed); the
+   * slope of (9) at theta -> 0 must reproduce it (central difference,
+   * step 1e-4 K: truncation ~1e-9 relative). */
+  struct ff_fusion w = FF_FUSION_WATER;
+  w.t0_k = 273.152519;
+  double h = 1e-4;
+  double a = (ff_thermo_neg_ln_activity(&w, 2 * h) -
+              ff_thermo_neg_ln_activity(&w, 0.0)) / (2 * h);
+  cr_expect(fabs(a / 9.682698e-3 - 1.0) < 2e-5, "a = %.7e", a);
+  /* And Kf is its inverse times M: theta/Xi -> Kf as theta -> 0. */
+  double kf = 1e-4 / ff_thermo_osmolality_exact(&w, 1e-4);
+  cr_expect(fabs(kf / ff_thermo_kf(&w) - 1.0) < 1e-5, "limit Kf %.6f", kf);
+}
+
 Test(thermo, linear_law_error_at_5k, .init = setup)
 {
   /* Osmolality at theta = 5 K: dT/1.86 = 2.68817 vs exact 2.69324 mol/kg
