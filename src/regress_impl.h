@@ -14,6 +14,10 @@
 /* Student t quantile for a two-sided interval at level conf. */
 double ff_rg_t_quantile(double conf, size_t dof);
 
+/* Coverage factor for an interval at level conf: Student t with dof when
+ * the variance was estimated from the residuals, else the normal quantile. */
+double ff_rg_coverage_factor(double conf, size_t dof, int estimated);
+
 /* Number of distinct values in x[0..n) (relative gap FF_RG_DISTINCT_REL). */
 size_t ff_rg_distinct(const double *x, size_t n);
 

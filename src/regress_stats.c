@@ -21,6 +21,12 @@ double ff_rg_t_quantile(double conf, size_t dof)
   return gsl_cdf_tdist_Pinv(0.5 + 0.5 * conf, (double)dof);
 }
 
+double ff_rg_coverage_factor(double conf, size_t dof, int estimated)
+{
+  return estimated ? ff_rg_t_quantile(conf, dof)
+                   : gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * conf);
+}
+
 size_t ff_rg_distinct(const double *x, size_t n)
 {
   size_t k = 0;
@@ -104,7 +110,11 @@ int ff_rg_finish(struct ff_fit *f, int weighted,
     f->cov_scale = 1.0;
   else
     f->cov_scale = fmax(1.0, f->chi2_red);
-  f->t_crit = ff_rg_t_quantile(o->confidence, f->dof);
+  /* Student t when the scale comes from the residuals; with the stated u
+   * alone the variance is known and the normal quantile applies (the t
+   * quantile would over-cover: 99.5 % instead of 95 % at 4 dof). */
+  int estimated = f->cov_scale > 1.0 || !weighted || o->cov == FF_COV_SCALED;
+  f->t_crit = ff_rg_coverage_factor(o->confidence, f->dof, estimated);
   for (size_t j = 0; j < p; j++) {
     for (size_t l = 0; l < p; l++)
       f->cov[j][l] *= f->cov_scale;
@@ -304,7 +314,9 @@ int ff_regress_line(const double *x, const double *y, const double *u_y,
   out->cov11 = c11 * out->cov_scale;
   out->se0 = sqrt(out->cov00);
   out->se1 = sqrt(out->cov11);
-  out->t_crit = ff_rg_t_quantile(confidence, out->dof);
+  out->t_crit = ff_rg_coverage_factor(confidence, out->dof,
+                                      !u_y || out->cov_scale > 1.0 ||
+                                        cov == FF_COV_SCALED);
   out->ci0[0] = c0 - out->t_crit * out->se0;
   out->ci0[1] = c0 + out->t_crit * out->se0;
   out->ci1[0] = c1 - out->t_crit * out->se1;

@@ -110,7 +110,10 @@ struct ff_fit {
   double sumsq;           /* sum (i_obs - i_fit)^2, unweighted */
   double chi2_red;        /* chi2 / dof */
   double cov_scale;       /* factor applied to (J'WJ)^-1 */
-  double t_crit;          /* Student t quantile used for the intervals */
+  double t_crit;          /* coverage factor of the intervals: Student t
+                             (dof) when the covariance was scaled by the
+                             residuals, normal quantile when the stated u
+                             alone set it */
   double aic;             /* chi2 + 2k (weighted) or n ln(sumsq/n) + 2k */
   double aicc;            /* aic + 2k(k+1)/(n-k-1); valid if has_aicc */
   int has_aicc;
@@ -202,7 +205,7 @@ struct ff_line {
   double c0, c1;                 /* intercept [y], slope [y/x] */
   double cov00, cov01, cov11;    /* after scaling per the cov mode */
   double se0, se1;
-  double ci0[2], ci1[2];         /* Student-t intervals */
+  double ci0[2], ci1[2];         /* intervals (t_crit as in ff_fit) */
   double chi2, sumsq, cov_scale, t_crit;
 };
 /*
