@@ -638,27 +638,33 @@ int ff_plot_add_solute(struct ff_plot_set *s,
           q(f->title, buf));
   var(gp.f, "x_max", isfinite(xmax) ? 1.05 * xmax : NAN,
       f->x_is_sqrt ? "x axis: sqrt of molality" : "x axis: molality (mol/kg)");
+  var(gp.f, "x_tic", nice_step(1.05 * xmax, 5), NULL);
   if (has_dep) {
     var(gp.f, "Kf_nu", f->ideal_slope_k_kg_mol,
         "ideal line: depression = Kf * nu * m (K kg/mol)");
     var(gp.f, "m_max", 1.05 * mmax, "molality axis (mol/kg)");
+    var(gp.f, "m_tic", nice_step(1.05 * mmax, 5), NULL);
   }
   loop_begin(gp.f, stem);
+  /* The key of panel (a) holds long model names and limits: it gets its
+   * own place (bottom right, or right), never on top of the data. */
   fprintf(gp.f, "  set multiplot title title_text noenhanced\n"
                 "  set lmargin at screen 0.10\n"
                 "  set rmargin at screen %s\n"
                 "  set tmargin at screen 0.86\n"
                 "  set bmargin at screen %s\n"
-                "  set xrange [0:x_max]\n",
-          has_dep ? "0.48" : "0.96", has_res ? "0.45" : "0.14");
+                "  set xrange [-0.03 * x_max:x_max]\n"
+                "  set xtics x_tic\n",
+          has_dep ? "0.50" : "0.58", has_res ? "0.48" : "0.14");
   if (has_res)
     fputs("  set format x ''\n  unset xlabel\n", gp.f);
   else
     fprintf(gp.f, "  set xlabel \"%s\"\n", xlab);
-  fputs("  set ylabel \"van 't Hoff factor {/:Italic i}\"\n"
-        "  set title \"(a) van 't Hoff factor\"\n"
-        "  set key top right Left reverse noenhanced\n", gp.f);
-  yrange_with_room(gp.f, "y", ri, 0.12 + 0.09 * (double)(f->n_models + 1));
+  fprintf(gp.f, "  set ylabel \"van 't Hoff factor {/:Italic i}\"\n"
+          "  set title \"(a) van 't Hoff factor\"\n"
+          "  set key at screen %s left top vertical Left reverse "
+          "noenhanced\n", has_dep ? "0.58, screen 0.32" : "0.62, screen 0.84");
+  yrange_with_room(gp.f, "y", ri, 0.08);
   c.f = gp.f;
   c.n = 0;
   for (m = 0; m < f->n_models; m++)
@@ -672,19 +678,27 @@ int ff_plot_add_solute(struct ff_plot_set *s,
     const struct ff_plot_model *md = &f->models[m];
 
     if (isfinite(md->i_limit) && isfinite(md->u_i_limit))
-      snprintf(key, sizeof key, "%s: i(0) = %.3f ± %.3f",
-               md->name != NULL ? md->name : "model", md->i_limit,
+      snprintf(key, sizeof key, "i(0) = %.3f ± %.3f", md->i_limit,
                md->u_i_limit);
     else if (isfinite(md->i_limit))
-      snprintf(key, sizeof key, "%s: i(0) = %.3f",
-               md->name != NULL ? md->name : "model", md->i_limit);
+      snprintf(key, sizeof key, "i(0) = %.3f", md->i_limit);
     else
-      snprintf(key, sizeof key, "%s", md->name != NULL ? md->name : "model");
-    if (i_curve[m] >= 0)
+      key[0] = '\0';
+    if (i_curve[m] >= 0) {
       clause(&c, "'%s.dat' index %d using 1:2 with lines lt %zu lw %s "
                  "dt %s title %s", stem, i_curve[m], m % 6 + 1,
              m == f->preferred ? "2.5" : "1.5",
-             m == f->preferred ? "1" : "2", q(key, buf));
+             m == f->preferred ? "1" : "2",
+             q(md->name != NULL ? md->name : "model", buf));
+      /* gnuplot overlaps two-line key entries: the limit gets its own
+       * line without a sample. */
+      if (key[0] != '\0') {
+        char line[KEY_MAX + 8];
+
+        snprintf(line, sizeof line, "    %s", key);
+        clause(&c, "keyentry with lines lt nodraw title %s", q(line, buf));
+      }
+    }
     if (i_lim[m] >= 0)
       clause(&c, "'%s.dat' index %d using 1:2:3 with yerrorbars lt %zu "
                  "pt 4 ps 1.2 %s", stem, i_lim[m], m % 6 + 1,
@@ -700,8 +714,8 @@ int ff_plot_add_solute(struct ff_plot_set *s,
 
   if (has_res) {
     fputs("  set format x '%g'\n"
-          "  set tmargin at screen 0.42\n"
-          "  set bmargin at screen 0.13\n", gp.f);
+          "  set tmargin at screen 0.37\n"
+          "  set bmargin at screen 0.15\n", gp.f);
     fprintf(gp.f, "  set xlabel \"%s\"\n", xlab);
     fputs("  set ylabel 'residual'\n  unset key\n", gp.f);
     snprintf(key, sizeof key, "(b) residuals of %s",
@@ -718,15 +732,17 @@ int ff_plot_add_solute(struct ff_plot_set *s,
   }
 
   if (has_dep) {
-    fputs("  set format x '%g'\n"
-          "  set lmargin at screen 0.60\n"
+    fprintf(gp.f, "  set format x '%%g'\n"
+          "  set lmargin at screen 0.64\n"
           "  set rmargin at screen 0.97\n"
           "  set tmargin at screen 0.86\n"
-          "  set bmargin at screen 0.13\n"
+          "  set bmargin at screen %s\n"
           "  set xrange [0:m_max]\n"
+          "  set xtics m_tic\n"
           "  set xlabel 'molality {/:Italic m} (mol/kg)'\n"
           "  set ylabel 'depression Δ{/:Italic T} (K)'\n"
-          "  set key top left Left reverse\n", gp.f);
+          "  set key inside top left Left reverse enhanced\n",
+          has_res ? "0.48" : "0.45");
     fprintf(gp.f, "  set title '(%c) depression'\n", has_res ? 'c' : 'b');
     yrange_with_room(gp.f, "y", rd, 0.25);
     c.n = 0;
@@ -812,8 +828,8 @@ int ff_plot_add_unknown(struct ff_plot_set *s,
   fputs("  set title title_text noenhanced\n"
         "  set xlabel x_label noenhanced\n"
         "  set ylabel 'apparent molar mass (g/mol)'\n"
-        "  set xrange [0:x_max]\n"
-        "  set key outside below center horizontal Left reverse\n", gp.f);
+        "  set xrange [-0.03 * x_max:x_max]\n"
+        "  set key outside below center horizontal maxrows 2 Left reverse\n", gp.f);
   yrange_with_room(gp.f, "y", ry, 0.08);
   c.f = gp.f;
   c.n = 0;
@@ -910,8 +926,9 @@ static void tic_labels(FILE *f, const char *axis, size_t n,
   for (k = 0; k < n; k++) {
     if (k % every != 0)
       continue;
-    fprintf(f, "%s%s %zu", first ? "" : ", ",
-            ff_plot_quote(name_of(ctx, k), buf, QMAX), k + 1);
+    /* Long ids would run off the figure: cut at 14 characters. */
+    ff_plot_quote(name_of(ctx, k), buf, 18);
+    fprintf(f, "%s%s %zu", first ? "" : ", ", buf, k + 1);
     first = 0;
   }
   fputs(")\n", f);
@@ -975,16 +992,19 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
           ff_plot_quote(f->title, buf, QMAX));
   var(gp, "m_max", mmax > 0.0 ? 1.05 * mmax : 1.0, "molality axis (mol/kg)");
   var(gp, "sqrt_m_max", smax > 0.0 ? 1.05 * smax : 1.0, NULL);
+  var(gp, "m_tic", nice_step(mmax > 0.0 ? 1.05 * mmax : 1.0, 5), NULL);
+  var(gp, "sqrt_m_tic", nice_step(smax > 0.0 ? 1.05 * smax : 1.0, 5), NULL);
   loop_begin(gp, stem);
   fputs("  set multiplot layout 2,2 title title_text noenhanced "
-        "margins 0.10, 0.97, 0.13, 0.90 spacing 0.11, 0.15\n", gp);
+        "margins 0.12, 0.97, 0.19, 0.89 spacing 0.12, 0.17\n", gp);
 
   /* (a) depression against molality, ideal lines dashed. */
   fputs("  set title '(a) depression against molality'\n"
         "  set xlabel 'molality {/:Italic m} (mol/kg)'\n"
         "  set ylabel 'Δ{/:Italic T} (K)'\n"
         "  set xrange [0:m_max]\n"
-        "  set key top left Left reverse noenhanced\n", gp);
+        "  set xtics m_tic\n"
+        "  set key inside top left Left reverse noenhanced\n", gp);
   yrange_with_room(gp, "y", ra, 0.1 + 0.1 * (double)n_dep);
   for (g = 0; g < ng; g++) {
     if (!gr[g].has_dep)
@@ -1004,10 +1024,11 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
   clauses_end(&c);
 
   /* (b) i against sqrt(m); limits at m = 0 from panel (d). */
-  fputs("  set title '(b) van \\'t Hoff factor'\n"
+  fputs("  set title \"(b) van 't Hoff factor\"\n"
         "  set xlabel '√{/:Italic m} ((mol/kg)^{1/2})'\n"
         "  set ylabel \"van 't Hoff factor {/:Italic i}\"\n"
-        "  set xrange [0:sqrt_m_max]\n"
+        "  set xrange [-0.03 * sqrt_m_max:sqrt_m_max]\n"
+        "  set xtics sqrt_m_tic\n"
         "  unset key\n", gp);
   yrange_with_room(gp, "y", rb, 0.08);
   for (g = 0; g < ng; g++)
@@ -1028,11 +1049,12 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
 
   /* (c) freezing point of every run. */
   fprintf(gp, "  set title '(c) freezing point per run (black: blank)'\n"
-              "  set xlabel 'run'\n"
+              "  unset xlabel\n"
               "  set ylabel 'freezing point (°C)'\n"
               "  set xrange [0.5:%zu.5]\n", f->n_runs);
   yrange_with_room(gp, "y", rc, 0.08);
-  fputs("  set xtics rotate by 90 right noenhanced font ',7'\n", gp);
+  /* Run ids upright would overlap: rotated, and at most 24 labelled. */
+  fputs("  set xtics rotate by 90 right noenhanced\n", gp);
   tic_labels(gp, "x", f->n_runs, run_name, f,
              f->n_runs > 24 ? (f->n_runs + 23) / 24 : 1, buf);
   for (g = 0; g < ng; g++)
@@ -1042,22 +1064,22 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
   if (c.n == 0)
     clause(&c, "NaN notitle");
   clauses_end(&c);
-  fputs("  set xtics norotate enhanced font '' autofreq\n", gp);
+  fputs("  set xtics norotate enhanced autofreq\n", gp);
 
   /* (d) limiting i per solute with its 95 % interval, nu for reference. */
-  fputs("  set title '(d) limiting van \\'t Hoff factor (95 % interval)'\n"
+  fputs("  set title '(d) limit at infinite dilution'\n"
         "  set xlabel 'solute'\n"
         "  set ylabel '{/:Italic i} at {/:Italic m} → 0'\n"
-        "  set key top right Left reverse\n", gp);
+        "  set key inside top right Left reverse enhanced\n", gp);
   if (i_lim >= 0) {
     fprintf(gp, "  set xrange [0.5:%zu.5]\n", f->n_limits);
     fputs("  set xtics noenhanced\n", gp);
     tic_labels(gp, "x", f->n_limits, limit_name, f, 1, buf);
-    yrange_with_room(gp, "y", rd, 0.3);
+    yrange_with_room(gp, "y", rd, 0.45);
     clause(&c, "'%s.dat' index %d using 1:2:3:4 with yerrorbars lc rgb "
-               "col_black pt 7 title 'fitted limit'", stem, i_lim);
+               "col_black pt 7 title 'fit, 95 %%'", stem, i_lim);
     clause(&c, "'' index %d using 1:5 with points lc rgb col_grey pt 6 "
-               "ps 1.3 title 'ν (full dissociation)'", i_lim);
+               "ps 1.3 title 'ν'", i_lim);
   } else {
     fputs("  set xrange [0:1]\n  set yrange [0:1]\n  unset xtics\n"
           "  unset ytics\n  set label 1 'no fitted solute' at graph 0.5, "
@@ -1141,7 +1163,7 @@ int ff_plot_add_overview(struct ff_plot_set *s,
     /* Only the solute number must be finite, so row k is limit k, as
      * panel (b)'s "every ::k::k" assumes. */
   }
-  script_begin(gp.f, s, stem, "overview of a series", f->title, 17.0, 15.0);
+  script_begin(gp.f, s, stem, "overview of a series", f->title, 17.0, 16.0);
   overview_script(gp.f, f, stem, gr, ng, i_lim, buf);
   st = finish(s, stem, &gp, &db, d);
 out:
