@@ -37,6 +37,8 @@ struct ff_column {
   enum ff_time_format time_format; /* the time column */
   unsigned channel;                /* 1-based channel number, 0 if none */
   char why[96];                    /* why ignored, e.g. "text", "empty" */
+  int unit_assumed;                /* 1: no unit in the header, C (or the
+                                      override) was assumed */
 };
 
 /* One temperature channel; values converted to degrees C on import. */
@@ -57,6 +59,8 @@ struct ff_dialect {
   unsigned long header_line;       /* 1-based, 0 = no header row */
   unsigned long first_data_line;
   unsigned long metadata_lines;    /* lines before the header */
+  int whitespace;                  /* 1: columns aligned with blanks */
+  unsigned long comment_lines;     /* '#' lines skipped inside the table */
 };
 
 struct ff_import_stats {
@@ -68,6 +72,7 @@ struct ff_import_stats {
   size_t rows_all_missing;         /* no channel had a value */
   unsigned long first_backwards_line; /* first line of such a problem, 0 */
   unsigned long first_duplicate_line;
+  size_t midnight_wraps;           /* clock times that passed midnight */
 };
 
 /*
@@ -86,6 +91,10 @@ struct ff_dataset {
   struct ff_dialect dialect;
   struct ff_import_stats stats;
   char t0_iso[40];                 /* "" when the time had no date */
+  double t0_s;                     /* first kept time as the file gives it,
+                                      in seconds (ISO 8601: seconds since
+                                      1970-01-01, UTC when the file gave
+                                      an offset) */
 };
 
 /*
@@ -117,6 +126,18 @@ long ff_dataset_find_channel(const struct ff_dataset *ds, const char *spec,
  */
 size_t ff_dataset_channel_xy(const struct ff_dataset *ds, size_t k,
                              double *t, double *y);
+
+/*
+ * Median of the time steps t_s[i+1] - t_s[i] (GSL), seconds; NaN when
+ * ds->n < 2.
+ */
+double ff_dataset_median_dt(const struct ff_dataset *ds);
+
+/* "seconds", "minutes", "hours", "clock", "iso8601" or "none" */
+const char *ff_time_format_name(enum ff_time_format f);
+
+/* "time", "temperature" or "ignored" */
+const char *ff_role_name(enum ff_col_role r);
 
 /* "C", "K", "F" or "?" */
 const char *ff_unit_name(enum ff_temp_unit u);
