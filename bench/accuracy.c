@@ -26,6 +26,7 @@ struct band {
   double *err[FF_METHOD_COUNT];
   size_t untrusted;            /* auto: no trusted event */
   size_t missed;               /* no event found at all */
+  size_t within_2u;            /* auto: |Tf - truth| <= 2 u */
 };
 
 static void add(struct band *b, int m, double e)
@@ -45,6 +46,9 @@ static void report(struct band *b)
 {
   printf("\n%s: %zu curves, %zu with no event found, %zu with no trusted "
          "auto result\n", b->name, b->n_curves, b->missed, b->untrusted);
+  if (b->n[FF_METHOD_AUTO] > 0)
+    printf("  auto within 2 u (its expanded uncertainty, k = 2): %.1f %%\n",
+           100.0 * (double)b->within_2u / (double)b->n[FF_METHOD_AUTO]);
   printf("  %-12s %6s %10s %10s %10s %8s\n", "method", "n", "median_mK",
          "p95_mK", "max_mK", "failed");
   for (int m = 0; m < FF_METHOD_COUNT; m++) {
@@ -110,8 +114,12 @@ static void run_curve(const struct ff_sim_params *sp, struct band **bands,
              e->trusted ? "trusted" : "untrusted",
              1e3 * (e->freezing_point_c - r.true_fp_c),
              1e3 * (e->est[FF_METHOD_MODEL].value_c - r.true_fp_c), e->flags);
-    if (e->trusted && isfinite(e->freezing_point_c))
+    if (e->trusted && isfinite(e->freezing_point_c)) {
       add(b, FF_METHOD_AUTO, fabs(e->freezing_point_c - r.true_fp_c));
+      if (fabs(e->freezing_point_c - r.true_fp_c)
+          <= 2.0 * e->u_freezing_point_k)
+        b->within_2u++;
+    }
     else {
       b->untrusted++;
       b->fail[FF_METHOD_AUTO]++;

@@ -19,6 +19,8 @@
 /* Slope before a break must exceed the slope after by this factor: an
  * exponential approach to the bath with tau > 15 s never does over 30 s. */
 #define BREAK_RATIO 8.0
+/* Model method allowance, as a fraction of the correction it applies. */
+#define MODEL_U_FRACTION 0.005
 /* After a slope break the probe lag rounds the corner; settle this long. */
 #define BREAK_SETTLE_S 30.0
 /* A thaw is a rise of this much above the lowest point of the branch, K. */
@@ -391,6 +393,13 @@ static void choose(const struct dctx *c, struct ff_event *e)
     e->u_noise_k = 0.0;
   }
   e->u_method_k = 0.0;
+  /* The model's own allowance: 0.5 % of the correction it applies (model
+   * minus the plain maximum), the median of its error against the
+   * simulator over the accuracy benchmark (docs/validation-detection.md):
+   * it covers what the fit covariance cannot see (probe transients left in
+   * the Newton fit, heat capacities, ice growth kinetics). */
+  if (m == FF_METHOD_MODEL && isfinite(e->peak_c))
+    e->u_method_k = MODEL_U_FRACTION * fabs(es->value_c - e->peak_c);
   e->u_freezing_point_k = sqrt(e->u_fit_k * e->u_fit_k
                                + e->u_noise_k * e->u_noise_k
                                + e->u_resolution_k * e->u_resolution_k
