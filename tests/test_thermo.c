@@ -88,6 +88,33 @@ Test(thermo, fusion_from_solvent_row, .init = setup)
   cr_expect_eq(ff_fusion_from_solvent(&s, &f, &d), FF_EINPUT);
 }
 
+Test(thermo, fusion_agrees_with_solvent_table, .init = setup)
+{
+  struct ff_solvent_table t = FF_SOLVENT_TABLE_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  size_t used = 0;
+
+  cr_assert_eq(ff_solvent_table_load(&t, "datasets/solvents.csv", &d), FF_OK,
+               "%s", d.msg);
+  for (size_t k = 0; k < t.n; k++) {
+    struct ff_fusion f;
+    ff_diag_clear(&d);
+    if (ff_fusion_from_solvent(&t.v[k], &f, &d) != FF_OK)
+      continue;       /* a row without dH_fus: no exact relation */
+    used++;
+    /* Same equation (1) in both modules. */
+    double kf = ff_thermo_kf(&f), kf_s = ff_solvent_kf_calc(&t.v[k]);
+    cr_expect(fabs(kf / kf_s - 1.0) < 1e-9, "%s: %g vs %g", t.v[k].name, kf,
+              kf_s);
+    /* Dilute limit of (10): theta / Xi -> Kf. */
+    double lim = 1e-4 / ff_thermo_osmolality_exact(&f, 1e-4);
+    cr_expect(fabs(lim / kf - 1.0) < 1e-4, "%s: limit %g vs Kf %g",
+              t.v[k].name, lim, kf);
+  }
+  cr_expect_geq(used, 10);
+  ff_solvent_table_release(&t);
+}
+
 /* ---- molality ------------------------------------------------------------ */
 
 Test(thermo, molality_and_hydrate_water, .init = setup)
