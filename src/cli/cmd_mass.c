@@ -271,9 +271,9 @@ static void print_text(const struct opts *o, const char *solvent,
          r->expanded_m_g_mol);
   printf("\nuncertainty budget (relative standard uncertainties)\n");
   for (size_t i = 0; i < nb; i++)
-    printf("  %-16s %10.5g %-9s u %-10.3g %6.2f %%\n", b[i].input,
+    printf("  %-16s %10.5g %-9s u %-10.3g %7.2g %%\n", b[i].input,
            b[i].value, b[i].unit, b[i].u, 100.0 * b[i].rel);
-  printf("  %-16s %44.2f %%\n", "combined", 100.0 * r->u_m_g_mol / r->m_g_mol);
+  printf("  %-16s %45.2g %%\n", "combined", 100.0 * r->u_m_g_mol / r->m_g_mol);
   if (r->mc_n > 0) {
     double ratio = r->mc_u_g_mol / r->u_m_g_mol;
     printf("\nMonte Carlo check (%zu draws, seed %.0f)\n", r->mc_n, o->seed);
