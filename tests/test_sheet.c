@@ -298,3 +298,25 @@ Test(sheet, check_reports_missing_file_and_formula, .fini = cleanup)
   ff_sheet_release(&s);
   ff_atomic_table_release(&at);
 }
+
+Test(sheet, unknown_solvent_names_the_known_ones, .fini = cleanup)
+{
+  struct ff_sheet s = FF_SHEET_INIT;
+  struct ff_solvent_table t = FF_SOLVENT_TABLE_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  const char *path = write_sheet(HDR
+                                 "B1,c.csv,blank,wasser,,,,,\n");
+
+  cr_assert_eq(ff_solvent_table_load(&t, "datasets/solvents.csv", &d), FF_OK,
+               "%s", d.msg);
+  cr_assert_eq(ff_sheet_read(path, &s, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(ff_sheet_check(&s, &t, NULL, &d), FF_EINPUT);
+  cr_expect_eq(d.line, 2);
+  cr_expect_eq(d.col, 4);
+  cr_expect(strstr(d.msg, "column 'solvent': unknown solvent 'wasser'")
+            != NULL, "%s", d.msg);
+  cr_expect(strstr(d.msg, "water") != NULL && strstr(d.msg, "cyclohexane")
+            != NULL, "names the known ones: %s", d.msg);
+  ff_sheet_release(&s);
+  ff_solvent_table_release(&t);
+}
