@@ -1,0 +1,97 @@
+# 50_series.sh - 'frostfit series': table, --json keys, --csv, figures, and
+# runs or sheets that fail (exit 2 with sheet:line and column name, exit 3).
+S="$ROOT/tests/data/series"
+
+CASE="series --help"; run "$FF" series --help
+expect_rc 0; expect_out '^usage: frostfit series SHEET'; expect_out 'exit codes'
+
+CASE="series without a sheet"; run "$FF" series
+expect_rc 1; expect_no_out; expect_err "^frostfit: series: give a run sheet"
+
+CASE="series unknown option"; run "$FF" series --frobnicate "$S/sheet.csv"
+expect_rc 1; expect_no_out; expect_err "unknown option '--frobnicate'"
+
+CASE="series table"; run "$FF" series "$S/sheet.csv"
+expect_rc 0
+expect_out '^runs$'
+expect_out '^N4 +sample +water +-0\.34[0-9]+ +0\.34[0-9]+ \+/- 0\.000[0-9]+ +0\.100000 +1\.86[0-9]+ \+/- '
+expect_out '^NaCl in water: 4 runs; particles 2'
+expect_out '^  debye_huckel +2\.0[0-9]+ \+/- '
+expect_out 'inside its interval -> inferred'
+expect_out '^white solid A in cyclohexane: M = 12[78]\.[0-9]+ \+/- '
+expect_out 'not a validated clinical or pharmaceutical measurement'
+expect_out '^caution \(cyclohexane\): '
+if grep -qi 'nan' "$OUT"; then bad "NaN in the table"; else ok; fi
+if [ -s "$ERR" ]; then bad "stderr not empty"; else ok; fi
+
+CASE="series --json"; run "$FF" series --json "$S/sheet.csv"
+expect_rc 0; expect_json
+if python3 -c 'import json,sys; d=json.load(open(sys.argv[1]))
+r=d["runs"][4]
+for k in ("run","role","freezing_point_c","depression_k","u_depression_k",
+          "molality_mol_kg","vant_hoff_i","u_vant_hoff_i",
+          "osmotic_coefficient","osmolality_osmol_kg"): assert k in r, k
+s=d["solutes"][0]
+assert s["solute"]=="NaCl" and s["particles_inferred"]==2, s
+assert isinstance(s["preferred"], str)
+for m in s["models"]:
+    for k in ("model","i_limit","u_i_limit","ci95"): assert k in m, k
+u=d["unknowns"][0]
+assert abs(u["molar_mass_g_mol"]-128.17) < 4*u["u_molar_mass_g_mol"], u
+' "$OUT" 2>"$TMP/py"; then ok; else bad "json keys: $(cat "$TMP/py")"; fi
+
+CASE="series --csv"; rm -f "$TMP/res.csv"
+run "$FF" series --quiet --csv "$TMP/res.csv" "$S/sheet.csv"
+expect_rc 0
+if [ -s "$TMP/res.csv" ] && grep -q '^"run","N4","sample"' "$TMP/res.csv" \
+   && grep -q '^"unknown","white solid A","cyclohexane","ok"' "$TMP/res.csv"
+then ok; else bad "csv file missing or incomplete"; fi
+if ls "$TMP"/.frostfit-csv-* >/dev/null 2>&1; then bad "temp file left"; else ok; fi
+
+CASE="series --csv refuses to overwrite an input"
+cp "$S"/sheet.csv "$S"/water.csv "$S"/cyclohexane.csv "$TMP"/
+run "$FF" series --csv "$TMP/water.csv" "$TMP/sheet.csv"
+expect_rc 1; expect_no_out; expect_err "refusing to overwrite"
+if cmp -s "$TMP/water.csv" "$S/water.csv"; then ok; else bad "input changed"; fi
+
+CASE="series --figures (scripts, rendered when gnuplot exists)"
+run "$FF" series --figures "$TMP/fig" "$S/sheet.csv"
+expect_rc 0
+if [ -f "$TMP/fig/overview.gp" ] && [ -f "$TMP/fig/run_N4.gp" ] \
+   && ls "$TMP"/fig/solute_NaCl*.gp >/dev/null 2>&1 \
+   && ls "$TMP"/fig/unknown_*.gp >/dev/null 2>&1
+then ok; else bad "figure scripts missing: $(ls "$TMP/fig" 2>&1 | head -5)"; fi
+
+CASE="series broken sheet: exit 2, sheet:line and column"
+printf 'run,file,role,solvent,solvent_g,solute,solute_g,molar_mass,blank\nB1,water.csv,blank,water,,,,,\nS1,water.csv,smaple,water,25,NaCl,0.2,58.44,B1\n' > "$TMP/bad.csv"
+run "$FF" series "$TMP/bad.csv"
+expect_rc 2
+expect_err "bad\.csv:3:3: column 'role': unknown role 'smaple'"
+
+CASE="series bad header: exit 2, nothing on stdout"
+printf 'name,path\nx,y\n' > "$TMP/hdr.csv"
+run "$FF" series "$TMP/hdr.csv"
+expect_rc 2; expect_no_out; expect_err "hdr\.csv:1: the header needs"
+
+CASE="series bad runs fail alone"; run "$FF" series "$S/broken.csv"
+expect_rc 2
+expect_err "broken\.csv:5:2: column 'file': cannot open data file '.*no-such-file\.csv'"
+expect_err "broken\.csv:6:3: run 'NOCH': channel 'T9'"
+expect_err "broken\.csv:7:4: run 'CYC': cycle 2 asked for"
+expect_out '^N3 +sample +water +-0\.17'
+expect_out '^GONE +sample +water +no result'
+
+CASE="series untrusted run: exit 3, still prints the rest"
+run "$FF" series --json "$S/untrusted.csv"
+expect_rc 3; expect_json
+expect_err "untrusted\.csv:5: run 'W1': froze at or above its blank"
+if python3 -c 'import json,sys; d=json.load(open(sys.argv[1]))
+r=[x for x in d["runs"] if x["run"]=="W1"][0]
+assert r["status"]=="untrusted" and r["vant_hoff_i"] is None
+assert d["runs"][0]["freezing_point_c"] is not None' "$OUT" 2>/dev/null
+then ok; else bad "untrusted run json"; fi
+
+CASE="series Kf from a standard"; run "$FF" series "$S/standard.csv"
+expect_rc 0
+expect_out 'calibration: cyclohexane Kf = 20\.[0-9]+ \+/- 0\.[0-9]+ K kg/mol from 1 standard \(S1\)'
+expect_out '^  U2 +20\.[0-9]+ \+/- 0\.[0-9]+ K kg/mol from standard \(S1\)'
