@@ -333,6 +333,35 @@ Test(regress, sqrt_line_misses_cacl2, .init = setup)
   expect_sqrt_worse("CaCl2", 3.0);
 }
 
+/* Without u the fit is unweighted and its scale comes from the residuals:
+ * same estimates as equal weights, covariance scaled, Student t used. */
+Test(regress, unweighted_fit_scales_by_residuals, .init = setup)
+{
+  struct salt s;
+  struct ff_fit fw = FF_FIT_INIT, fu = FF_FIT_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  struct ff_regress_opts o = FF_REGRESS_OPTS_DEFAULT;
+
+  load_salt("K2SO4", &s);
+  o.virial_terms = 2;
+  o.cov = FF_COV_SCALED;
+  struct ff_regress_input in = salt_input(&s, 0);
+  cr_assert_eq(ff_regress_fit_model(&in, FF_REGRESS_DEBYE_HUCKEL, &o, &fw, &d),
+               FF_OK, "%s", d.msg);
+  in.u_i = NULL;
+  o.cov = FF_COV_ABSOLUTE;   /* ignored without u */
+  cr_assert_eq(ff_regress_fit_model(&in, FF_REGRESS_DEBYE_HUCKEL, &o, &fu, &d),
+               FF_OK, "%s", d.msg);
+  for (size_t j = 0; j < fu.npar; j++) {
+    cr_expect_float_eq(fu.par[j], fw.par[j], 1e-9 * fabs(fw.par[j]));
+    cr_expect_float_eq(fu.se[j], fw.se[j], 1e-7 * fw.se[j]);
+  }
+  cr_expect_float_eq(fu.chi2, fu.sumsq, 1e-18);
+  cr_expect_float_eq(fu.t_crit, ff_rg_t_quantile(0.95, 2), 1e-12);
+  ff_fit_release(&fw);
+  ff_fit_release(&fu);
+}
+
 Test(regress, fixed_nu_model_and_tests_are_reported, .init = setup)
 {
   struct salt s;
