@@ -174,8 +174,11 @@ void ff_regress_result_release(struct ff_regress_result *r);
  * Fits the models selected in o->models (NULL o: defaults) to one solute.
  * Returns FF_OK when at least one model fitted (others carry their own
  * status and reason); FF_EINPUT for invalid input (n = 0, NULL arrays,
- * m <= 0, u <= 0, non-finite values, a_phi < 0, nu = 0); FF_EUNTRUSTED when
- * no model could be fitted (d says why). out must be _INIT or released.
+ * m <= 0, u <= 0, non-finite values, a_phi < 0, nu = 0, nu+/nu-/charges
+ * that do not add up or balance); FF_EUSAGE for invalid options;
+ * FF_EUNTRUSTED when no model could be fitted (d says why). Ion pairing is
+ * skipped for non-electrolytes and association for electrolytes (fit left
+ * with attempted = 0). out must be _INIT or released.
  */
 int ff_regress_solute(const struct ff_regress_input *in,
                       const struct ff_regress_opts *o,
@@ -183,7 +186,8 @@ int ff_regress_solute(const struct ff_regress_input *in,
 
 /*
  * Fits one model. Returns out->status (FF_OK or FF_EUNTRUSTED, reason in
- * out->reason and in d) or FF_EINPUT as above. out must be _INIT/released.
+ * out->reason and in d) or FF_EINPUT/FF_EUSAGE as above. out must be
+ * _INIT/released.
  */
 int ff_regress_fit_model(const struct ff_regress_input *in,
                          enum ff_regress_model model,
