@@ -16,6 +16,10 @@
 #define PRE_WINDOW_S 30.0
 /* Window of the slope-break search (no supercooling), s. */
 #define BREAK_WINDOW_S 30.0
+/* A sample about to freeze cools by far more than this over the window
+ * (a few kelvin to the bath, tau of minutes); a bath probe's flicker never
+ * does. */
+#define BREAK_MIN_DROP_K 0.1
 /* Slope before a break must exceed the slope after by this factor: an
  * exponential approach to the bath with tau > 15 s never does over 30 s. */
 #define BREAK_RATIO 8.0
@@ -599,7 +603,7 @@ static int find_break(const struct dctx *c, size_t a, size_t b, size_t *at)
     if (!(sb < 0.0))
       continue;
     drop = -sb * (c->t[a + i - 1] - c->t[a + i - w]);
-    if (drop < 10.0 * c->sigma + 2.0 * c->res)
+    if (drop < fmax(BREAK_MIN_DROP_K, 10.0 * c->sigma + 2.0 * c->res))
       continue;
     SLOPE(i, i + w, sa);
     SLOPE(i, i + wb, sl);

@@ -1,0 +1,70 @@
+# 30_point.sh - 'frostfit point': events, methods, JSON, channels that never
+# freeze, and the exit codes (3 when nothing can be trusted). Curves come from
+# 'frostfit simulate' (synthetic); its true freezing point is Tf0 - i Kf m.
+
+# jnum EXPR: evaluates a Python expression on the JSON in $OUT as j.
+jnum() { python3 -c "import json,sys; j=json.load(open('$OUT')); print($1)" 2>/dev/null; }
+
+"$FF" simulate --molality 0.15 --i 2 --supercool 2 --seed 7 \
+  --out "$TMP/salt.csv" >/dev/null 2>&1
+"$FF" simulate --molality 0.15 --i 2 --supercool 1.5 --freeze-s 25 --seed 7 \
+  --out "$TMP/short.csv" >/dev/null 2>&1
+"$FF" simulate --cycles 3 --freeze-s 400 --supercool 1 --seed 3 \
+  --out "$TMP/cycles.csv" >/dev/null 2>&1
+
+CASE="point: salt solution, auto"; run "$FF" point "$TMP/salt.csv"
+expect_rc 0; expect_out 'model'; expect_out '^ +1 +-0\.55[5-9]'
+CASE="point: --all-methods shows every method"
+run "$FF" point "$TMP/salt.csv" --all-methods
+expect_rc 0; expect_out 'intersect +-0\.5'; expect_out 'peak +-0\.5'
+expect_out 'plateau .*no flat part'
+CASE="point --json: contract keys and the true value within 3 mK"
+run "$FF" point "$TMP/salt.csv" --json
+expect_rc 0; expect_json
+if [ "$(jnum "abs(j['events'][0]['freezing_point_c'] + 0.558) < 0.003")" = True ]
+then ok; else bad "freezing_point_c not within 3 mK of -0.558"; fi
+if [ "$(jnum "all(k in j['events'][0] for k in ('channel','cycle','freezing_point_c','u_freezing_point_k','method','supercooling_k','nucleation_time_s','flags'))")" = True ]
+then ok; else bad "contract keys missing"; fi
+if [ "$(jnum "j['events'][0]['estimates']['peak']['freezing_point_c'] < -0.565")" = True ]
+then ok; else bad "peak estimate should read low"; fi
+CASE="point --method peak"; run "$FF" point "$TMP/salt.csv" --method peak
+expect_rc 0; expect_out ' peak '
+CASE="point --method plateau on a solution: untrusted, exit 3"
+run "$FF" point "$TMP/salt.csv" --method plateau
+expect_rc 3; expect_err 'no trustworthy freezing point'; expect_err 'no flat part'
+expect_no_out
+
+# A bath probe beside the sample: it never freezes.
+awk -F, 'NR == 1 { print $0 ",bath (C)"; next }
+         { printf "%s,%.3f\n", $0, -6.0 + 0.001 * ((NR * 7919) % 5) }' \
+  "$TMP/salt.csv" > "$TMP/two.csv"
+CASE="point: bath channel gives no event"; run "$FF" point "$TMP/two.csv"
+expect_rc 0; expect_out "channel 2 'bath \(C\)': no freeze event"
+run "$FF" point "$TMP/two.csv" --json
+expect_json
+if [ "$(jnum "[c['events'] for c in j['channels']] == [1, 0] and len(j['events']) == 1")" = True ]
+then ok; else bad "channels array should read 1 and 0 events"; fi
+CASE="point --channel bath only: exit 3"
+run "$FF" point "$TMP/two.csv" --channel 2
+expect_rc 3; expect_err 'no freeze found'; expect_no_out
+
+CASE="point: three cycles"; run "$FF" point "$TMP/cycles.csv" --json
+expect_rc 0
+if [ "$(jnum "[e['cycle'] for e in j['events']] == [1, 2, 3]")" = True ]
+then ok; else bad "three events expected"; fi
+
+CASE="point: freeze cut off by the end of the file"
+run "$FF" point "$TMP/short.csv"
+expect_rc 3; expect_err 'file ends'; expect_no_out
+
+printf 'time_s,T (C)\n0,1.0\n1,0.9\n2,abc\n' > "$TMP/bad.csv"
+CASE="point: bad cell is bad input"; run "$FF" point "$TMP/bad.csv"
+expect_rc 2; expect_err 'bad.csv:4'
+CASE="point: missing file"; run "$FF" point "$TMP/none.csv"
+expect_rc 4
+CASE="point: unknown method"; run "$FF" point "$TMP/salt.csv" --method tangent
+expect_rc 1; expect_err "unknown method 'tangent'"
+CASE="point: no file"; run "$FF" point
+expect_rc 1
+CASE="point --help"; run "$FF" point --help
+expect_rc 0; expect_out '^usage: frostfit point'
