@@ -104,8 +104,7 @@ static long dataset_of(struct ff_series *out, struct caches *k,
   *why = &fc->diag;
   struct ff_dataset *ds = ff_import_file(path, &io, &fc->diag);
   if (ds == NULL)
-    return fc->diag.status == FF_EIO && strstr(fc->diag.msg, "memory")
-           ? -2 : -1;
+    return -1;                /* the runs of this file fail with its reason */
   struct ff_dataset **v = realloc(out->ds, (out->n_ds + 1) * sizeof *v);
   if (v == NULL) {
     ff_dataset_free(ds);
@@ -536,6 +535,13 @@ static int collect_kfcal(struct ff_series *s, const struct ff_sheet *sh)
 
 /* ---- the whole pipeline ---- */
 
+/* Out of memory: nothing of the result is usable. */
+static int no_memory(struct ff_series *out, struct ff_diag *d)
+{
+  ff_series_release(out);
+  return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+}
+
 int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
                   struct ff_series *out, struct ff_diag *d)
 {
@@ -549,7 +555,7 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
                        "table");
   out->runs = calloc(sheet->n ? sheet->n : 1, sizeof *out->runs);
   if (out->runs == NULL)
-    return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+    return no_memory(out, d);
   out->n_runs = sheet->n;
 
   /* 1. Every good row: solvent, particles, freezing point. */
@@ -577,7 +583,7 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
   }
   caches_release(&k);
   if (st != FF_OK)
-    return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+    return no_memory(out, d);
 
   /* 2. Blanks of blanks (drift checks), then standards, then Kf. */
   for (size_t i = 0; i < out->n_runs; i++) {
@@ -594,7 +600,7 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
       calibrate(sheet, r);
   }
   if (collect_kfcal(out, sheet) != FF_OK)
-    return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+    return no_memory(out, d);
 
   /* 3. Samples, standards (i against the table), unknowns. */
   for (size_t i = 0; i < out->n_runs; i++) {
@@ -618,10 +624,10 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
   /* 4. Fits per solute and per unknown (series_fit.c). */
   st = series_fit(out, sheet, o);
   if (st == FF_EIO)
-    return ff_diag_set(d, FF_EIO, NULL, "out of memory");
+    return no_memory(out, d);
 
   /* Overall status: bad input first, then untrusted. */
-  int any_input = 0, any_untrusted = 0;
+  int any_input = 0, any_untrusted = 0, any_io = 0;
   const struct ff_diag *first = NULL;
   for (size_t i = 0; i < out->n_runs; i++) {
     const struct ff_series_run *r = &out->runs[i];
@@ -630,8 +636,7 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
     out->n_failed++;
     any_input |= r->status == FF_EINPUT || r->status == FF_EUSAGE;
     any_untrusted |= r->status == FF_EUNTRUSTED;
-    if (r->status == FF_EIO)
-      return ff_diag_set(d, FF_EIO, NULL, "%s", r->diag.msg);
+    any_io |= r->status == FF_EIO;
     if (first == NULL)
       first = &r->diag;
   }
@@ -649,11 +654,13 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
       if (first == NULL)
         first = &out->unknowns[i].diag;
     }
+  int st_all = any_io ? FF_EIO : any_input ? FF_EINPUT
+               : any_untrusted ? FF_EUNTRUSTED : FF_OK;
   if (first != NULL && d != NULL && d->status == FF_OK) {
     *d = *first;
-    d->status = any_input ? FF_EINPUT : FF_EUNTRUSTED;
+    d->status = (enum ff_status)st_all;
   }
-  return any_input ? FF_EINPUT : any_untrusted ? FF_EUNTRUSTED : FF_OK;
+  return st_all;
 }
 
 void ff_series_release(struct ff_series *s)

@@ -87,6 +87,8 @@ static json_t *run_json(const struct ff_series *s, const struct ff_series_run *r
   NUM("blank_freezing_point_c", r->tf_blank_c);
   NUM("depression_observed_k", r->depression_obs_k);
   NUM("frozen_fraction", r->frozen_fraction);
+  NUM("frozen_fraction_at_peak", r->has_event ? r->event.frozen_fraction
+                                               : NAN);
   json_object_set_new(o, "frozen_fraction_applied",
                       json_boolean(ok && r->correction_applied));
   NUM("depression_k", r->depression_k);

@@ -149,9 +149,11 @@ struct ff_series {
  * their reason and get no result). Each run stands alone: a bad file or an
  * untrusted freezing point is recorded in that run (and in the runs that
  * need it as their blank or standard), the rest still go through.
- * Returns FF_OK when every run and fit gave a result; otherwise FF_EINPUT
- * when any run failed on bad input, else FF_EUNTRUSTED; d holds the first
- * such problem. FF_EIO (out of memory, nothing usable) wins over both.
+ * Returns FF_OK when every run and fit (of three or more runs) gave a
+ * result; otherwise FF_EIO when a data file could not be read, else
+ * FF_EINPUT when any run failed on bad input, else FF_EUNTRUSTED; d holds
+ * the first such problem and out holds every result. Out of memory:
+ * FF_EIO with out released (n_runs 0).
  */
 int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
                   struct ff_series *out, struct ff_diag *d);

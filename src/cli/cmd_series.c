@@ -217,6 +217,27 @@ static void print_runs(const struct ff_series *s)
   }
 }
 
+/* One line on the Monte Carlo cross-check of u(i) over all runs. */
+static void print_mc(const struct ff_series *s)
+{
+  double worst = 0;
+  size_t n = 0;
+
+  for (size_t k = 0; k < s->n_runs; k++) {
+    const struct ff_series_run *r = &s->runs[k];
+    if (r->status != FF_OK || !isfinite(r->mc_u_vant_hoff_i)
+        || !(r->th.u_vant_hoff_i > 0))
+      continue;
+    double dev = fabs(r->mc_u_vant_hoff_i / r->th.u_vant_hoff_i - 1);
+    if (dev > worst)
+      worst = dev;
+    n++;
+  }
+  if (n > 0)
+    printf("\nMonte Carlo check of u(i): within %.1f %% of the GUM value "
+           "for all %zu run%s\n", 100 * worst, n, n == 1 ? "" : "s");
+}
+
 static void print_kf(const struct ff_series *s)
 {
   char a[64];
@@ -362,6 +383,7 @@ static void print_table(const struct ff_series *s)
   printf("series %s: %zu run%s, %zu without a result\n\n", s->sheet->path,
          s->n_runs, s->n_runs == 1 ? "" : "s", s->n_failed);
   print_runs(s);
+  print_mc(s);
   print_kf(s);
   if (s->n_solutes > 0)
     printf("\nsolutes (i extrapolated to infinite dilution)");
@@ -791,7 +813,7 @@ int ff_cmd_series(int argc, char **argv)
   so.seed = (unsigned long)o.seed;
   ff_diag_clear(&d);
   st = ff_series_run(&sh, &so, &s, &d);
-  if (st == FF_EIO) {
+  if (st == FF_EIO && s.n_runs == 0) {
     st = ff_cli_fail(&d);
     goto done;
   }
