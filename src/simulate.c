@@ -12,6 +12,7 @@
 #include <gsl/gsl_odeiv2.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
+#include <gsl/gsl_roots.h>
 
 /* Random supercooling range, K (common practice, no source: 0.3-1 K in
  * Beckmann work, up to about 2.5 K in cryoscopes, REFERENCES.md 8). */
@@ -69,6 +70,8 @@ void ff_sim_params_default(struct ff_sim_params *p)
   p->seed = 1;
   p->growth_area_frac = 0.0005;
   p->thaw_k = 3.0;
+  p->bath_drift_k_s = 0.0;
+  p->bath_channel = 0;
 }
 
 double ff_sim_true_fp_c(const struct ff_sim_params *p)
@@ -85,6 +88,7 @@ void ff_sim_result_release(struct ff_sim_result *r)
   free(r->temp_c);
   free(r->sample_c);
   free(r->ice_frac);
+  free(r->bath_temp_c);
   memset(r, 0, sizeof *r);
 }
 
@@ -102,7 +106,9 @@ struct model {
   double g;         /* growth constant, 1/(K s) */
   double xa;        /* area fraction scale, 0 = off */
   double lag;       /* probe time constant, s; 0 = ideal probe */
-  double bath;      /* current bath temperature, C */
+  double bath;      /* bath temperature when switched on, C */
+  double drift;     /* K/s since t_bath */
+  double t_bath;    /* when the current bath was switched on, s */
   int growth;       /* 1 once a crystal exists in this cycle */
 };
 
@@ -135,6 +141,11 @@ static double ice_rate(const struct model *m, double T, double x)
   return m->g * d * area * x / (x + MELT_SOFT_X);
 }
 
+static double bath_at(const struct model *m, double t)
+{
+  return m->bath + m->drift * (t - m->t_bath);
+}
+
 static int rhs(double t, const double y[], double f[], void *params)
 {
   const struct model *m = params;
@@ -142,9 +153,8 @@ static int rhs(double t, const double y[], double f[], void *params)
   double rate = ice_rate(m, T, x);
   double c = m->ms * ((1.0 - xc) * m->cpl + xc * m->cps);
 
-  (void)t;
   /* Energy: C dT/dt = -h (T - T_bath) + P_stir + L m_s dx/dt. */
-  f[0] = (-m->h * (T - m->bath) + m->stir + m->lat * m->ms * rate) / c;
+  f[0] = (-m->h * (T - bath_at(m, t)) + m->stir + m->lat * m->ms * rate) / c;
   f[1] = rate;
   /* Probe: dTp/dt = (T - Tp) / lag; an ideal probe follows T exactly. */
   f[2] = m->lag > 0.0 ? (T - y[2]) / m->lag : f[0];
@@ -168,8 +178,12 @@ static int jac(double t, const double y[], double *dfdy, double dfdt[],
     for (int i = 0; i < 3; i++)
       dfdy[i * 3 + j] = (f1[i] - f0[i]) / hj;
   }
-  for (int i = 0; i < 3; i++)
-    dfdt[i] = 0.0;
+  {
+    double f2[3];
+    rhs(t + 1e-3, y, f2, params);      /* only the bath drift depends on t */
+    for (int i = 0; i < 3; i++)
+      dfdt[i] = (f2[i] - f0[i]) / 1e-3;
+  }
   return GSL_SUCCESS;
 }
 
@@ -183,6 +197,7 @@ struct sim {
   gsl_odeiv2_driver *drv;
   gsl_rng *rng_phys;     /* draws the random supercooling */
   gsl_rng *rng_meas;     /* draws noise and dropouts */
+  gsl_rng *rng_bath;     /* the same for the bath probe */
   double t, y[3];
   unsigned long k_next;  /* index of the next sample */
   struct ff_sim_result *r;
@@ -193,14 +208,15 @@ struct sim {
 static int grow(struct sim *s)
 {
   size_t cap = s->cap ? 2 * s->cap : 4096;
-  double **arr[4] = { &s->r->t_s, &s->r->temp_c, &s->r->sample_c,
-                      &s->r->ice_frac };
+  double **arr[5] = { &s->r->t_s, &s->r->temp_c, &s->r->sample_c,
+                      &s->r->ice_frac, &s->r->bath_temp_c };
+  int n_arr = s->p->bath_channel ? 5 : 4;
 
   if (s->r->n >= MAX_SAMPLES)
     return ff_diag_set(s->d, FF_EUSAGE, NULL, "the simulated record would "
                        "exceed %lu samples: raise dt or shorten the run",
                        MAX_SAMPLES);
-  for (int i = 0; i < 4; i++) {
+  for (int i = 0; i < n_arr; i++) {
     double *v = realloc(*arr[i], cap * sizeof **arr[i]);
     if (v == NULL)
       return ff_diag_set(s->d, FF_EIO, NULL, "out of memory");
@@ -210,13 +226,11 @@ static int grow(struct sim *s)
   return FF_OK;
 }
 
-/* What the thermometer reports for the current state. */
-static double reading(struct sim *s)
+/* What a thermometer reports for temperature x: noise, steps, dropouts. */
+static double reading(const struct ff_sim_params *p, gsl_rng *rng, double x)
 {
-  const struct ff_sim_params *p = s->p;
-  double v = s->y[2] + p->offset_k + gsl_ran_gaussian(s->rng_meas, 1.0)
-             * p->noise_k;
-  double u = gsl_rng_uniform(s->rng_meas);
+  double v = x + gsl_ran_gaussian(rng, 1.0) * p->noise_k;
+  double u = gsl_rng_uniform(rng);
 
   if (p->resolution_k > 0.0)
     v = round(v / p->resolution_k) * p->resolution_k + 0.0;  /* no -0 */
@@ -232,7 +246,9 @@ static int record(struct sim *s)
   r->t_s[r->n] = s->t;
   r->sample_c[r->n] = s->y[0];
   r->ice_frac[r->n] = s->y[1] < 0.0 ? 0.0 : s->y[1];
-  r->temp_c[r->n] = reading(s);
+  r->temp_c[r->n] = reading(s->p, s->rng_meas, s->y[2] + s->p->offset_k);
+  if (s->p->bath_channel)
+    r->bath_temp_c[r->n] = reading(s->p, s->rng_bath, bath_at(&s->m, s->t));
   r->n++;
   return FF_OK;
 }
@@ -278,27 +294,88 @@ static void event(struct sim *s)
   gsl_odeiv2_driver_reset(s->drv);
 }
 
+/* Liquid branch in closed form, s seconds after the cold bath went on with
+ * the sample at y0: for a bath T_b0 + d s the solution of
+ * tau dT/ds = -(T - T_b0 - d s - P/h) is T_p(s) + (y0 - T_p(0)) e^(-s/tau)
+ * with T_p(s) = T_b0 + P/h + d (s - tau). */
+struct liquid { double y0, tb0, ph, d, tau, target; };
+
+static double liquid_t(double sec, const struct liquid *q)
+{
+  double tp0 = q->tb0 + q->ph - q->d * q->tau;
+  return tp0 + q->d * sec + (q->y0 - tp0) * exp(-sec / q->tau);
+}
+
+static double liquid_gap(double sec, void *params)
+{
+  const struct liquid *q = params;
+  return liquid_t(sec, q) - q->target;
+}
+
+/* Seconds until the liquid reaches the nucleation temperature; returns 0 if
+ * it never does (bath too warm, or drifting up faster than it cools). */
+static int nucleation_delay(const struct liquid *q, double *out)
+{
+  double lo = 0.0, hi = 0.0, step = q->tau / 8.0;
+  gsl_function fn = { liquid_gap, (void *)q };
+  gsl_root_fsolver *rs;
+  int st = GSL_CONTINUE;
+
+  if (fabs(q->d) <= 0.0) {
+    /* No drift: t_n = tau ln((T0 - T_inf) / (T_n - T_inf)). */
+    double t_inf = q->tb0 + q->ph;
+    if (!(t_inf < q->target && q->y0 > q->target))
+      return 0;
+    *out = q->tau * log((q->y0 - t_inf) / (q->target - t_inf));
+    return 1;
+  }
+  if (liquid_gap(0.0, fn.params) <= 0.0)
+    return 0;
+  for (hi = step; liquid_gap(hi, fn.params) > 0.0; hi += step) {
+    lo = hi;
+    if (hi > 60.0 * q->tau)
+      return 0;
+  }
+  rs = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
+  if (rs == NULL || gsl_root_fsolver_set(rs, &fn, lo, hi) != GSL_SUCCESS) {
+    gsl_root_fsolver_free(rs);
+    return 0;
+  }
+  for (int it = 0; it < 200 && st == GSL_CONTINUE; it++) {
+    gsl_root_fsolver_iterate(rs);
+    lo = gsl_root_fsolver_x_lower(rs);
+    hi = gsl_root_fsolver_x_upper(rs);
+    st = gsl_root_test_interval(lo, hi, 1e-12, 1e-14);
+  }
+  *out = gsl_root_fsolver_root(rs);
+  gsl_root_fsolver_free(rs);
+  return st == GSL_SUCCESS;
+}
+
 /* Cold bath on: liquid cools by Newton's law until it nucleates. Before
- * nucleation there is no ice, so the liquid branch is exactly
- * T(t) = T_inf + (T0 - T_inf) exp(-(t - t0)/tau), T_inf = T_bath + P/h,
- * and the nucleation instant is found in closed form. */
+ * nucleation there is no ice, so the liquid branch is known in closed form
+ * and so is the nucleation instant. */
 static int cool_and_freeze(struct sim *s, unsigned c)
 {
   const struct ff_sim_params *p = s->p;
   struct ff_sim_result *r = s->r;
-  double tf_true = r->true_fp_c, u = p->supercool_k, t_inf, t_n;
+  double tf_true = r->true_fp_c, u = p->supercool_k, t_n, delay;
+  struct liquid q;
   int st;
 
   if (u < 0.0)
     u = SUPERCOOL_RAND_LO + (SUPERCOOL_RAND_HI - SUPERCOOL_RAND_LO)
         * gsl_rng_uniform(s->rng_phys);
   s->m.bath = p->bath_c;
+  s->m.drift = p->bath_drift_k_s;
+  s->m.t_bath = s->t;
   s->m.growth = 0;
   event(s);
   r->cycle_start_t_s[c] = s->t;
-  t_inf = p->bath_c + s->m.stir / s->m.h;
-  if (t_inf < tf_true - u && s->y[0] > tf_true - u) {
-    t_n = s->t + p->tau_s * log((s->y[0] - t_inf) / (tf_true - u - t_inf));
+  q = (struct liquid){ s->y[0], p->bath_c, s->m.stir / s->m.h,
+                       p->bath_drift_k_s, p->tau_s, tf_true - u };
+  if (nucleation_delay(&q, &delay)) {
+    t_n = s->t + delay;
     if ((st = run_until(s, t_n)) != FF_OK)
       return st;
     /* The closed form is exact; the integrated state agrees to ~1e-6 K,
@@ -340,6 +417,8 @@ static int thaw(struct sim *s)
   int st;
 
   s->m.bath = p->start_c + p->thaw_k;
+  s->m.drift = 0.0;
+  s->m.t_bath = s->t;
   event(s);
   for (;;) {
     if ((st = run_until(s, next_sample_t(s))) != FF_OK)
@@ -386,6 +465,7 @@ static int check_params(const struct ff_sim_params *p, struct ff_diag *d)
     { "dropout fraction", p->dropout, p->dropout >= 0.0 && p->dropout < 1.0 },
     { "freeze duration", p->freeze_s, p->freeze_s > 0.0 },
     { "thaw bath step", p->thaw_k, p->thaw_k > 0.0 },
+    { "bath drift", p->bath_drift_k_s, fabs(p->bath_drift_k_s) < 1.0 },
   };
 
   for (size_t i = 0; i < sizeof c / sizeof c[0]; i++) {
@@ -444,7 +524,9 @@ int ff_simulate_run(const struct ff_sim_params *p, struct ff_sim_result *r,
                                         1e-3, ODE_EPS_ABS, ODE_EPS_REL);
   s.rng_phys = gsl_rng_alloc(gsl_rng_mt19937);
   s.rng_meas = gsl_rng_alloc(gsl_rng_mt19937);
-  if (s.drv == NULL || s.rng_phys == NULL || s.rng_meas == NULL) {
+  s.rng_bath = gsl_rng_alloc(gsl_rng_mt19937);
+  if (s.drv == NULL || s.rng_phys == NULL || s.rng_meas == NULL ||
+      s.rng_bath == NULL) {
     st = ff_diag_set(d, FF_EIO, NULL, "out of memory");
     goto out;
   }
@@ -452,6 +534,9 @@ int ff_simulate_run(const struct ff_sim_params *p, struct ff_sim_result *r,
   /* Two streams, so changing the noise does not change the supercooling. */
   gsl_rng_set(s.rng_phys, p->seed);
   gsl_rng_set(s.rng_meas, p->seed ^ 0x5bd1e995UL);
+  gsl_rng_set(s.rng_bath, p->seed ^ 0x27d4eb2fUL);
+  s.m.bath = p->bath_c;
+  s.m.t_bath = 0.0;
   s.y[0] = s.y[2] = p->start_c;
   s.y[1] = 0.0;
   if ((st = record(&s)) != FF_OK)
@@ -469,6 +554,7 @@ out:
     gsl_odeiv2_driver_free(s.drv);
   gsl_rng_free(s.rng_phys);
   gsl_rng_free(s.rng_meas);
+  gsl_rng_free(s.rng_bath);
   if (st != FF_OK) {
     double tf = r->true_fp_c;
     ff_sim_result_release(r);
@@ -489,11 +575,17 @@ static int put_num(FILE *f, double v)
 int ff_simulate_write_csv(const struct ff_sim_result *r, FILE *f,
                           struct ff_diag *d)
 {
-  if (fputs("time_s,T (C)\n", f) == EOF)
+  if (fputs(r->bath_temp_c ? "time_s,T (C),bath (C)\n" : "time_s,T (C)\n",
+            f) == EOF)
     goto fail;
   for (size_t i = 0; i < r->n; i++) {
     if (put_num(f, r->t_s[i]) != 0 || fputc(',', f) == EOF ||
-        put_num(f, r->temp_c[i]) != 0 || fputc('\n', f) == EOF)
+        put_num(f, r->temp_c[i]) != 0)
+      goto fail;
+    if (r->bath_temp_c != NULL &&
+        (fputc(',', f) == EOF || put_num(f, r->bath_temp_c[i]) != 0))
+      goto fail;
+    if (fputc('\n', f) == EOF)
       goto fail;
   }
   if (fflush(f) != 0 || ferror(f))

@@ -485,3 +485,50 @@ Test(simulate, csv_has_header_and_empty_dropouts)
   fclose(f);
   ff_sim_result_release(&r);
 }
+
+/* A drifting cold bath: the bath channel reads T_b0 + d (t - t_on), and the
+ * liquid branch follows the closed form of Newton cooling towards a linear
+ * bath, T = T_p(s) + (T0 - T_p(0)) e^(-s/tau), T_p(s) = T_b0 + d (s - tau)
+ * (first-order linear ODE, common practice, no source). */
+Test(simulate, drifting_bath_and_bath_channel)
+{
+  struct ff_sim_params p;
+  struct ff_sim_result r = FF_SIM_RESULT_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  double drift = 0.00137, tau, tp0;
+  char line[128];
+  FILE *f = tmpfile();
+
+  ff_sim_params_default(&p);
+  ideal_probe(&p);
+  p.bath_drift_k_s = drift;
+  p.bath_channel = 1;
+  p.molality_mol_kg = 0.1;
+  run_ok(&p, &r);
+  cr_assert_not_null(r.bath_temp_c);
+  tau = p.tau_s;
+  tp0 = p.bath_c - drift * tau;
+  for (size_t i = 0; i < r.n && r.t_s[i] < r.nucleation_t_s[0]; i++) {
+    double t = r.t_s[i];
+    double want = tp0 + drift * t + (p.start_c - tp0) * exp(-t / tau);
+    cr_assert_float_eq(r.bath_temp_c[i], p.bath_c + drift * t, 1e-12);
+    cr_assert_float_eq(r.sample_c[i], want, 1e-5, "t %.0f: %.7f vs %.7f", t,
+                       r.sample_c[i], want);
+  }
+  /* Nucleation still happens at Tf_true - u, later than without drift. */
+  cr_assert_float_eq(r.supercool_k[0], 1.5, 1e-12);
+  cr_assert_gt(r.nucleation_t_s[0], 107.5);
+  cr_assert_not_null(f);
+  cr_assert_eq(ff_simulate_write_csv(&r, f, &d), FF_OK);
+  rewind(f);
+  cr_assert_not_null(fgets(line, sizeof line, f));
+  cr_assert_str_eq(line, "time_s,T (C),bath (C)\n");
+  fclose(f);
+  ff_sim_result_release(&r);
+
+  /* A bath drifting up faster than the sample cools never nucleates. */
+  p.bath_drift_k_s = 0.05;
+  run_ok(&p, &r);
+  cr_assert(isnan(r.nucleation_t_s[0]));
+  ff_sim_result_release(&r);
+}

@@ -41,12 +41,17 @@ struct ff_sim_params {
                                   ice fraction x (its surface) grows; 0 = off,
                                   the plain law dm/dt = G m_s (T_eq - T) */
   double thaw_k;               /* thaw bath sits this far above start_c */
+  double bath_drift_k_s;       /* cold bath drifts by this much per second
+                                  from the moment it is switched on, K/s */
+  int bath_channel;            /* 1: also record a bath probe (a channel
+                                  that never freezes) */
 };
 /*
  * Defaults: 20 g water (constants as in datasets/solvents.csv), pure, i = 1,
  * start 5 C, bath -6 C, tau 120 s, no stirring heat, supercooling 1.5 K,
  * probe lag 2 s, noise 2 mK, resolution 1 mK, dt 1 s, 1 cycle, freeze 900 s,
- * seed 1, G 0.05 /(K s), x_a 0.0005, thaw bath start + 3 K.
+ * seed 1, G 0.05 /(K s), x_a 0.0005, thaw bath start + 3 K, no bath
+ * drift, no bath channel.
  */
 void ff_sim_params_default(struct ff_sim_params *p);
 
@@ -74,6 +79,8 @@ struct ff_sim_result {
   double cycle_start_t_s[FF_SIM_MAX_CYCLES];  /* cold bath switched on */
   double peak_c[FF_SIM_MAX_CYCLES];  /* highest true sample temperature
                                         after nucleation, before the thaw */
+  double *bath_temp_c;         /* bath probe readings (NaN = dropout), only
+                                  with bath_channel; else NULL */
 };
 #define FF_SIM_RESULT_INIT { 0 }
 void ff_sim_result_release(struct ff_sim_result *r);
@@ -86,8 +93,9 @@ void ff_sim_result_release(struct ff_sim_result *r);
 int ff_simulate_run(const struct ff_sim_params *p, struct ff_sim_result *r,
                     struct ff_diag *d);
 
-/* Writes r as a CSV the importer reads: header "time_s,T (C)", a dropout
- * is an empty cell. FF_EIO in d when the write fails. */
+/* Writes r as a CSV the importer reads: header "time_s,T (C)" (plus
+ * ",bath (C)" when r has a bath channel), a dropout is an empty cell.
+ * FF_EIO in d when the write fails. */
 int ff_simulate_write_csv(const struct ff_sim_result *r, FILE *f,
                           struct ff_diag *d);
 

@@ -40,6 +40,8 @@ static void usage(FILE *f)
 "  --cycles N         freeze-thaw cycles, 1..%d (1)\n"
 "  --freeze-s S       how long each freeze is followed, s (900)\n"
 "  --thaw-k K         thaw bath this far above the start temperature (3)\n"
+"  --bath-drift K/S   the cold bath drifts this much per second (0)\n"
+"  --bath-channel     also record a bath probe column, 'bath (C)'\n"
 "thermometer:\n"
 "  --lag S            probe time constant, s (2)\n"
 "  --noise K          Gaussian noise, standard deviation, K (0.002)\n"
@@ -170,6 +172,8 @@ static json_t *summary_json(const struct ff_sim_params *p,
   ff_json_set_num(par, "dropout", p->dropout);
   ff_json_set_num(par, "freeze_s", p->freeze_s);
   ff_json_set_num(par, "thaw_k", p->thaw_k);
+  ff_json_set_num(par, "bath_drift_k_s", p->bath_drift_k_s);
+  json_object_set_new(par, "bath_channel", json_boolean(p->bath_channel));
   json_object_set_new(par, "cycles", json_integer((json_int_t)p->cycles));
   json_object_set_new(par, "seed", json_integer((json_int_t)p->seed));
   json_object_set_new(root, "parameters", par);
@@ -242,6 +246,7 @@ int ff_cmd_simulate(int argc, char **argv)
     { "--dropout", &p.dropout, 0 },
     { "--freeze-s", &p.freeze_s, 0 },
     { "--thaw-k", &p.thaw_k, 0 },
+    { "--bath-drift", &p.bath_drift_k_s, 0 },
   };
   const size_t n_opts = sizeof opts / sizeof opts[0];
 
@@ -257,6 +262,10 @@ int ff_cmd_simulate(int argc, char **argv)
     }
     if (strcmp(arg, "--json") == 0) {
       json = 1;
+      continue;
+    }
+    if (strcmp(arg, "--bath-channel") == 0) {
+      p.bath_channel = 1;
       continue;
     }
     if (strncmp(arg, "--", 2) != 0)
@@ -313,10 +322,12 @@ int ff_cmd_simulate(int argc, char **argv)
   }
   /* Start and bath default to the solvent's own freezing point +5 / -6 K
    * (the water defaults), so every solvent works without extra options. */
-  if (!opts[3].given)
-    p.start_c = p.solvent.tf_c + 5.0;
-  if (!opts[4].given)
-    p.bath_c = p.solvent.tf_c - 6.0;
+  for (size_t k = 0; k < n_opts; k++) {
+    if (opts[k].dst == &p.start_c && !opts[k].given)
+      p.start_c = p.solvent.tf_c + 5.0;
+    if (opts[k].dst == &p.bath_c && !opts[k].given)
+      p.bath_c = p.solvent.tf_c - 6.0;
+  }
 
   if ((st = ff_simulate_run(&p, &r, &d)) != FF_OK) {
     ff_cli_fail(&d);

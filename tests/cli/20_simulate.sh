@@ -28,3 +28,6 @@ CASE="simulate unknown solvent"; run "$FF" simulate --solvent unobtainium
 expect_rc 2; expect_err "unknown solvent 'unobtainium'"; expect_err 'cyclohexane'; expect_no_out
 CASE="simulate start below freezing point"; run "$FF" simulate --molality 3 --start -10
 expect_rc 1; expect_err 'start temperature'
+CASE="simulate bath channel"; run "$FF" simulate --bath-channel --bath-drift 0.0004 --out "$TMP/bath.csv" --json
+expect_rc 0; expect_out '"bath_drift_k_s": 0\.0004'
+if [ "$(head -1 "$TMP/bath.csv")" = "time_s,T (C),bath (C)" ]; then ok; else bad "bath column header"; fi
