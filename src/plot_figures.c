@@ -368,7 +368,11 @@ int ff_plot_add_event(struct ff_plot_set *s, const struct ff_plot_event_fig *e,
   var(gp.f, "t_nuc", e->t_nucleation_s, "nucleation instant (s)");
   var(gp.f, "zoom_t0", z[0], "zoom panel: time range (s)");
   var(gp.f, "zoom_t1", z[1], NULL);
-  var(gp.f, "tic_s", nice_step(t_hi - t_lo, 5), "time tic steps (s), "
+  if (!(t_hi > t_lo))
+    t_hi = t_lo + 1.0;
+  var(gp.f, "rec_t0", t_lo, "whole record: time range (s)");
+  var(gp.f, "rec_t1", t_hi, NULL);
+  var(gp.f, "tic_s", nice_step(t_hi - t_lo, 4), "time tic steps (s), "
       "wide enough for the labels");
   var(gp.f, "zoom_tic_s", nice_step(z[1] - z[0], 4), NULL);
   var(gp.f, "zoom_mK0", 1000.0 * (z[2] - e->freezing_point_c),
@@ -400,6 +404,7 @@ int ff_plot_add_event(struct ff_plot_set *s, const struct ff_plot_event_fig *e,
   for (panel = 0; panel < 2; panel++) {
     if (panel == 0)
       fputs("  set title '(a) whole record'\n"
+            "  set xrange [rec_t0:rec_t1]\n"
             "  set xtics tic_s\n"
             "  set lmargin at screen 0.09\n"
             "  set rmargin at screen 0.375\n"

@@ -778,3 +778,77 @@ Test(plot, renders_twenty_events_in_seconds)
   ff_plot_set_free(s);
   rm_tree(dir);
 }
+
+/* ------------------------------------------------ detected events (CLI) */
+
+#include <gsl/gsl_errno.h>
+#include "frostfit/detect.h"
+#include "frostfit/simulate.h"
+
+Test(plot, detected_event_maps_fits_and_result)
+{
+  char dir[64], want[64];
+  struct ff_sim_params p;
+  struct ff_sim_result r = FF_SIM_RESULT_INIT;
+  struct ff_event_list ev = FF_EVENT_LIST_INIT;
+  struct ff_detect_params dp = FF_DETECT_PARAMS_DEFAULT;
+  struct ff_diag d = FF_DIAG_INIT;
+  struct ff_plot_opts o = FF_PLOT_OPTS_DEFAULT;
+  struct ff_plot_set *s;
+  struct ff_event bad;
+  double *t, *y;
+  size_t n = 0, k;
+  char *gp, *dat;
+
+  gsl_set_error_handler_off();
+  ff_sim_params_default(&p);
+  p.molality_mol_kg = 0.137;   /* synthetic curve, a salt-like solution */
+  p.vant_hoff_i = 1.87;
+  p.seed = 11;
+  cr_assert_eq(ff_simulate_run(&p, &r, &d), FF_OK, "%s", d.msg);
+  t = malloc(r.n * sizeof *t);
+  y = malloc(r.n * sizeof *y);
+  cr_assert(t != NULL && y != NULL);
+  for (k = 0; k < r.n; k++)
+    if (isfinite(r.temp_c[k])) {
+      t[n] = r.t_s[k];
+      y[n++] = r.temp_c[k];
+    }
+  dp.method = FF_METHOD_EXTRAPOLATE;
+  cr_assert_eq(ff_detect_run(t, y, n, &dp, &ev, &d), FF_OK, "%s", d.msg);
+  cr_assert_geq(ev.n, 1);
+  cr_assert(ev.v[0].trusted, "%s", ev.v[0].status_reason);
+
+  make_tmpdir(dir, sizeof dir);
+  o.no_render = 1;
+  s = ff_plot_set_new(dir, &o, &d);
+  cr_assert_not_null(s);
+  cr_assert_eq(ff_plot_add_detected(s, "lab/run 7.csv", "T1", t, y, n,
+                                    &ev.v[0], &d), FF_OK, "%s", d.msg);
+  gp = slurp(dir, "run_7_T1_c1.gp", NULL);
+  dat = slurp(dir, "run_7_T1_c1.dat", NULL);
+  cr_assert_not_null(gp);
+  cr_assert_not_null(dat);
+  snprintf(want, sizeof want, "Tf = %.10g ", ev.v[0].freezing_point_c);
+  cr_expect(strstr(gp, want) != NULL, "no '%s' in the script", want);
+  cr_expect(strstr(gp, "method_text = 'extrapolate'") != NULL);
+  cr_expect(strstr(gp, "title_text = 'run 7.csv, T1, freeze 1'") != NULL);
+  cr_expect(strstr(dat, "fitted freezing branch") != NULL);
+  cr_expect(strstr(dat, "extrapolation to the reading instant") != NULL);
+  free(gp);
+  free(dat);
+
+  /* An untrusted event is never drawn with a number. */
+  bad = ev.v[0];
+  bad.trusted = 0;
+  snprintf(bad.status_reason, sizeof bad.status_reason, "branch too short");
+  cr_expect_eq(ff_plot_add_detected(s, "x.csv", "T1", t, y, n, &bad, &d),
+               FF_EUNTRUSTED);
+  cr_expect(strstr(d.msg, "branch too short") != NULL, "%s", d.msg);
+  ff_plot_set_free(s);
+  rm_tree(dir);
+  ff_event_list_release(&ev);
+  ff_sim_result_release(&r);
+  free(t);
+  free(y);
+}

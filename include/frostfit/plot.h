@@ -208,6 +208,30 @@ int ff_plot_add_overview(struct ff_plot_set *s,
 int ff_plot_render(struct ff_plot_set *s, struct ff_plot_report *r,
                    struct ff_diag *d);
 
+/* ---- adapters for the CLI ---- */
+
+struct ff_event;               /* frostfit/detect.h */
+
+/*
+ * Adds the figure of one detected freeze event: the channel's curve t_s,
+ * temp_c (n samples, borrowed; the part inside the event's share of the
+ * record is drawn) with the event's fits evaluated by the detector.
+ * file and channel name the figure ("<file stem>_<channel>_c<cycle>") and
+ * its title. Only trusted events are drawn: FF_EUNTRUSTED in d for an
+ * event without a trustworthy freezing point; otherwise as
+ * ff_plot_add_event.
+ */
+int ff_plot_add_detected(struct ff_plot_set *s, const char *file,
+                         const char *channel, const double *t_s,
+                         const double *temp_c, size_t n,
+                         const struct ff_event *e, struct ff_diag *d);
+
+/*
+ * The plots/ folder beside a data folder (ff_cli_datadir() gives
+ * ".../datasets"; plots/ is its sibling) into out (size n). Returns out.
+ */
+char *ff_plot_dir_beside(const char *datadir, char *out, size_t n);
+
 /* ---- building blocks, public for tests and other writers ---- */
 
 /*
