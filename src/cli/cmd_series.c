@@ -238,24 +238,41 @@ static void print_mc(const struct ff_series *s)
            "for all %zu run%s\n", 100 * worst, n, n == 1 ? "" : "s");
 }
 
+/* Kf per run, grouped: runs sharing a value and an origin on one line. */
 static void print_kf(const struct ff_series *s)
 {
   char a[64];
   int any = 0;
+  unsigned char *done = calloc(s->n_runs + 1, 1);
 
+  if (done == NULL)
+    return;
   for (size_t k = 0; k < s->n_runs; k++) {
     const struct ff_series_run *r = &s->runs[k];
-    if (r->status != FF_OK
+    if (done[k] || r->status != FF_OK
         || s->sheet->row[r->row].role == FF_SHEET_BLANK)
       continue;
     if (!any)
       printf("\nKf used\n");
     any = 1;
-    printf("  %-10s %s K kg/mol from %s (%s)\n", s->sheet->row[r->row].run,
+    printf("  %s K kg/mol from %s (%s):",
            pm(a, sizeof a, r->kf_k_kg_mol,
               r->u_kf_k_kg_mol > 0 ? r->u_kf_k_kg_mol : NAN),
            ff_kf_source_name(r->kf_source), r->kf_from);
+    for (size_t j = k; j < s->n_runs; j++) {
+      const struct ff_series_run *q = &s->runs[j];
+      if (done[j] || q->status != FF_OK
+          || s->sheet->row[q->row].role == FF_SHEET_BLANK
+          || q->kf_source != r->kf_source
+          || strcmp(q->kf_from, r->kf_from) != 0
+          || fabs(q->kf_k_kg_mol - r->kf_k_kg_mol) > 0)
+        continue;
+      done[j] = 1;
+      printf(" %s", s->sheet->row[q->row].run);
+    }
+    printf("\n");
   }
+  free(done);
   for (size_t k = 0; k < s->n_kfcal; k++)
     printf("  calibration: %s Kf = %s K kg/mol from %zu standard%s (%s)\n",
            s->kfcal[k].solvent,
@@ -389,8 +406,6 @@ static void print_table(const struct ff_series *s)
     printf("\nsolutes (i extrapolated to infinite dilution)");
   for (size_t k = 0; k < s->n_solutes; k++)
     print_solute(&s->solutes[k]);
-  if (s->n_solutes > 0)
-    printf("\n");
   print_unknowns(s);
   print_cautions(s);
 }

@@ -94,4 +94,5 @@ then ok; else bad "untrusted run json"; fi
 CASE="series Kf from a standard"; run "$FF" series "$S/standard.csv"
 expect_rc 0
 expect_out 'calibration: cyclohexane Kf = 20\.[0-9]+ \+/- 0\.[0-9]+ K kg/mol from 1 standard \(S1\)'
-expect_out '^  U2 +20\.[0-9]+ \+/- 0\.[0-9]+ K kg/mol from standard \(S1\)'
+expect_out '^  20\.[0-9]+ \+/- 0\.[0-9]+ K kg/mol from standard \(S1\): U2$'
+expect_out '^  20\.8 K kg/mol from table \(cyclohexane\): S1$'
