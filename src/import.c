@@ -69,6 +69,11 @@ static void read_time(struct reader *r, size_t c, const char *s, size_t n)
   double v;
   int date_only = 0, parts;
 
+  if (r->tf != FF_TIME_CLOCK && r->tf != FF_TIME_ISO8601
+      && ff_import_parse_number(s, n, r->decimal, &v) == 0 && isfinite(v)) {
+    r->row_t = v * r->time_scale;      /* the common case, first */
+    return;
+  }
   if (ff_import_is_missing_text(s, n)) {
     r->time_missing = 1;
     return;
@@ -129,11 +134,11 @@ static void read_temp(struct reader *r, size_t c, const char *s, size_t n)
   double v;
   long k = r->chan[c];
 
-  if (ff_import_is_missing_text(s, n))
-    return;                            /* stays NaN */
+  /* numbers first: the common case must not pay for the marker list */
   if (ff_import_parse_number(s, n, r->decimal, &v) != 0) {
-    fail_cell(r, c, "a number", s, n);
-    return;
+    if (!ff_import_is_missing_text(s, n))
+      fail_cell(r, c, "a number", s, n);
+    return;                            /* missing: stays NaN */
   }
   if (ff_import_is_sentinel(v, r->o->sentinels, r->o->n_sentinels))
     return;

@@ -181,6 +181,8 @@ int ff_import_is_missing_text(const char *s, size_t n)
     n--;
   if (n == 0)
     return 1;
+  if (s[0] >= '0' && s[0] <= '9')
+    return 0;                          /* no marker starts with a digit */
   if (run_of(s, n, '-') || run_of(s, n, '#') || run_of(s, n, '*')
       || run_of(s, n, '?'))
     return 1;

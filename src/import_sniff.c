@@ -559,10 +559,18 @@ static int plan_columns(struct ff_sniff *out, const struct colstat *cs,
 }
 
 static int no_table(const char *buf, const struct line *ln, size_t nl,
-                    int eof, const char *path, struct ff_diag *d)
+                    int eof, unsigned long long_tail, const char *path,
+                    struct ff_diag *d)
 {
   struct ff_loc loc = { path, 1, 1 };
   long last = -1;
+
+  if (long_tail > 0) {
+    loc.line = long_tail;
+    return ff_diag_set(d, FF_EINPUT, &loc,
+                       "expected a table of numbers with lines shorter than "
+                       "%zu bytes, found a longer line", FF_IMPORT_SNIFF_BYTES / 2);
+  }
 
   for (size_t i = 0; i < nl; i++)
     if (!ln[i].skip)
@@ -597,6 +605,7 @@ int ff_import_sniff(const char *buf, size_t len, int eof, const char *path,
   struct span *f = NULL, *hf = NULL;
   size_t *nfs = NULL;
   size_t start = 0, nl, ends[3], mode, fd, nh = 0;
+  unsigned long long_tail = 0;
   long hdr = -1;
   struct colstat *cs = NULL;
   char delim;
@@ -624,11 +633,16 @@ int ff_import_sniff(const char *buf, size_t len, int eof, const char *path,
     goto done;
   }
   nl = find_lines(buf, start, len, eof, ln, MAX_LINES, ends);
+  /* the sample stops inside a line longer than half of it */
+  if (!eof && nl < MAX_LINES
+      && len - (nl ? ln[nl - 1].off + ln[nl - 1].len : start)
+           > FF_IMPORT_SNIFF_BYTES / 2)
+    long_tail = nl ? ln[nl - 1].no + 1 : 1;
   if (nl == 0 && !eof) {
-    loc.col = 1;
+    loc.line = 1;
     st = ff_diag_set(d, FF_EINPUT, &loc,
                      "expected lines shorter than %zu bytes, found a longer one",
-                     FF_IMPORT_SNIFF_BYTES);
+                     FF_IMPORT_SNIFF_BYTES / 2);
     goto done;
   }
   {
@@ -647,17 +661,17 @@ int ff_import_sniff(const char *buf, size_t len, int eof, const char *path,
   if (o->delimiter != 0) {
     delim = o->delimiter;
   } else if (!pick_delimiter(buf, ln, nl, f, nfs, &delim)) {
-    st = no_table(buf, ln, nl, eof, path, d);
+    st = no_table(buf, ln, nl, eof, long_tail, path, d);
     goto done;
   }
   mode = mode_fields(buf, ln, nl, delim, f, nfs);
   if (mode == 0) {
-    st = no_table(buf, ln, nl, eof, path, d);
+    st = no_table(buf, ln, nl, eof, long_tail, path, d);
     goto done;
   }
   fd = first_data(buf, ln, nl, delim, mode, f);
   if (fd >= nl) {
-    st = no_table(buf, ln, nl, eof, path, d);
+    st = no_table(buf, ln, nl, eof, long_tail, path, d);
     goto done;
   }
   /* the header: the line just above the data, text, about as wide */

@@ -81,6 +81,18 @@ static const char *delim_name(char c)
   }
 }
 
+/* Prints s padded to width characters (UTF-8 aware: names hold °). */
+static void print_padded(const char *s, int width)
+{
+  int chars = 0;
+
+  for (const unsigned char *p = (const unsigned char *)s; *p; p++)
+    chars += (*p & 0xC0) != 0x80;
+  fputs(s, stdout);
+  for (; chars < width; chars++)
+    putchar(' ');
+}
+
 static void print_text(const struct ff_dataset *ds)
 {
   const struct ff_dialect *dl = &ds->dialect;
@@ -104,7 +116,9 @@ static void print_text(const struct ff_dataset *ds)
   printf("\n\ncolumns:\n");
   for (size_t c = 0; c < ds->n_columns; c++) {
     const struct ff_column *col = &ds->col[c];
-    printf("  %3zu  %-24s ", c + 1, col->name);
+    printf("  %3zu  ", c + 1);
+    print_padded(col->name, 24);
+    putchar(' ');
     switch (col->role) {
     case FF_ROLE_TIME:
       printf("time, %s\n", ff_time_format_name(col->time_format));
@@ -148,8 +162,10 @@ static void print_text(const struct ff_dataset *ds)
       snprintf(lo, sizeof lo, "%.4f", ch->min_c);
       snprintf(hi, sizeof hi, "%.4f", ch->max_c);
     }
-    printf("  %3zu  %-24s %6u %4s %10s %10s %8zu\n", k + 1, ch->name,
-           ch->column, ff_unit_name(ch->unit_in), lo, hi, ch->n_missing);
+    printf("  %3zu  ", k + 1);
+    print_padded(ch->name, 24);
+    printf(" %6u %4s %10s %10s %8zu\n", ch->column, ff_unit_name(ch->unit_in),
+           lo, hi, ch->n_missing);
   }
 }
 
