@@ -432,7 +432,8 @@ static void cross_check(const struct dctx *c, struct ff_event *e)
   const struct ff_estimate *a = &e->est[FF_METHOD_MODEL],
                            *b = &e->est[FF_METHOD_PLATEAU];
 
-  if (a->ok && b->ok
+  /* Only where both should agree: a pure solvent, no depression seen. */
+  if (a->ok && b->ok && fabs(e->model_delta_k) < 3.0 * e->model_u_delta_k
       && fabs(a->value_c - b->value_c) > 3.0 * hypot(a->u_k, b->u_k) + c->res)
     e->flags |= FF_FLAG_METHODS_DISAGREE;
 }
