@@ -421,6 +421,62 @@ static size_t first_data(const char *buf, const struct line *ln, size_t nl,
   return nl;
 }
 
+/*
+ * A header line that only holds units ("s", "°C", "%") under a line of
+ * names: the loggers that write the unit on a line of its own.
+ */
+static int units_row(const struct ff_column *col, size_t n,
+                     const struct span *hf)
+{
+  size_t units = 0;
+
+  for (size_t c = 0; c < n; c++) {
+    char b[160];
+    struct ff_header_info h;
+    if (hf[c].n == 0)
+      continue;
+    if (hf[c].n > 12)
+      return 0;
+    snprintf(b, sizeof b, "(%s)", col[c].name);
+    ff_import_header_info(b, &h);
+    if (h.unit == FF_UNIT_UNKNOWN && h.time_unit == FF_TIME_NONE
+        && h.not_temp == NULL)
+      return 0;
+    units += h.unit != FF_UNIT_UNKNOWN || h.time_unit != FF_TIME_NONE;
+  }
+  return units > 0;
+}
+
+/* The line of names above a units line hdr, split into f; -1 if none. */
+static long names_above(const char *buf, const struct line *ln, long hdr,
+                        char delim, size_t nh, struct span *f)
+{
+  for (long k = hdr - 1; k >= 0; k--) {
+    struct shape sh;
+    if (ln[k].skip)
+      continue;
+    sh = shape_of(buf + ln[k].off, ln[k].len, delim, f);
+    if (delim == ' ' && sh.nf != nh)
+      sh = shape_of(buf + ln[k].off, ln[k].len, WS_WIDE, f);
+    return sh.nf == nh && sh.n_num == 0 ? k : -1;
+  }
+  return -1;
+}
+
+/* col[c].name holds the unit; makes it "name (unit)". */
+static void merge_names(struct ff_column *col, size_t n, const struct span *f)
+{
+  for (size_t c = 0; c < n; c++) {
+    char unit[128], name[128];
+    snprintf(unit, sizeof unit, "%s", col[c].name);
+    copy_name(name, sizeof name, &f[c], c);
+    if (strncmp(unit, "column ", 7) == 0)
+      snprintf(col[c].name, sizeof col[c].name, "%s", name);
+    else
+      snprintf(col[c].name, sizeof col[c].name, "%.60s (%.60s)", name, unit);
+  }
+}
+
 static long find_named(const struct ff_column *col, size_t n, const char *spec)
 {
   char *end;
@@ -706,6 +762,14 @@ int ff_import_sniff(const char *buf, size_t len, int eof, const char *path,
       copy_name(out->col[c].name, sizeof out->col[c].name, &hf[c], c);
     else
       snprintf(out->col[c].name, sizeof out->col[c].name, "column %zu", c + 1);
+  }
+  if (hdr >= 0 && units_row(out->col, mode < nh ? mode : nh, hf)) {
+    long k = names_above(buf, ln, hdr, delim, nh, f);
+    if (k >= 0) {
+      merge_names(out->col, mode < nh ? mode : nh, f);
+      out->dialect.header_line = ln[k].no;
+      out->dialect.metadata_lines = ln[k].no - 1;
+    }
   }
   for (size_t i = fd, rows = 0; i < nl && rows < SAMPLE_ROWS; i++) {
     size_t nf;

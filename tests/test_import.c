@@ -299,6 +299,68 @@ Test(import, column_roles_and_channel_numbers)
   ff_dataset_free(ds);
 }
 
+Test(import, units_on_their_own_line)
+{
+  struct ff_dataset *ds = load(DIR "units_row.csv", NULL);
+
+  cr_assert_eq(ds->dialect.header_line, 2);
+  cr_assert_eq(ds->dialect.metadata_lines, 1);
+  cr_assert_eq(ds->dialect.first_data_line, 4);
+  cr_assert_str_eq(ds->col[0].name, "Time (s)");
+  cr_assert_str_eq(ds->ch[0].name, "T1 (\xC2\xB0" "C)");
+  cr_assert_eq(ds->ch[1].unit_in, FF_UNIT_K);
+  cr_assert_eq(ds->col[3].role, FF_ROLE_IGNORE);
+  cr_assert_eq(ds->n_channels, 2);
+  near(ds->ch[1].temp_c[0], 2.0, CONV, "275,15 K");
+  near(ds->ch[0].temp_c[1], 1.25, EXACT, "1,25 C");
+  ff_dataset_free(ds);
+}
+
+Test(import, date_and_time_in_separate_columns)
+{
+  struct ff_dataset *ds = load(DIR "date_time_columns.csv", NULL);
+
+  cr_assert_eq(ds->col[0].role, FF_ROLE_IGNORE);
+  cr_assert_eq(ds->col[1].role, FF_ROLE_TIME);
+  cr_assert_eq(ds->col[1].time_format, FF_TIME_CLOCK);
+  cr_assert_eq(ds->n, 3);
+  cr_assert_eq(ds->stats.midnight_wraps, 1);
+  near(ds->t_s[2], 2.0, EXACT, "00:00:00 after 23:59:58");
+  near(ds->ch[0].temp_c[1], 1.375, EXACT, "T[1]");
+  ff_dataset_free(ds);
+}
+
+Test(import, dotted_dates_and_twelve_hour_clock)
+{
+  struct ff_dataset *ds = load(DIR "dotted_dates.csv", NULL);
+
+  cr_assert_eq(ds->col[0].time_format, FF_TIME_ISO8601);
+  cr_assert_str_eq(ds->ch[0].name, "Temperatur (\xC2\xB0" "C)");
+  /* 2026-11-30T23:59:58, no offset: seconds since 1970 as written
+   * (python3 datetime(2026,11,30,23,59,58,tzinfo=utc).timestamp()) */
+  near(ds->t0_s, 1796083198.0, EXACT, "t0");
+  near(ds->t_s[2], 5.0, EXACT, "01.12.2026 00:00:03");
+  near(ds->ch[0].temp_c[2], 1.3, EXACT, "1,3");
+  ff_dataset_free(ds);
+
+  ds = load(DIR "ampm.csv", NULL);
+  cr_assert_eq(ds->n, 3);
+  near(ds->t_s[1], 2.0, EXACT, "12:00:01 AM after 11:59:59 PM");
+  near(ds->t_s[2], 6.0, EXACT, "12:00:05 AM");
+  ff_dataset_free(ds);
+}
+
+Test(import, blank_aligned_names_with_spaces)
+{
+  struct ff_dataset *ds = load(DIR "whitespace_names.txt", NULL);
+
+  cr_assert_eq(ds->n_columns, 3);
+  cr_assert_str_eq(ds->col[0].name, "Time (s)");
+  cr_assert_str_eq(ds->ch[1].name, "T2 (C)");
+  near(ds->ch[1].temp_c[1], 2.25, EXACT, "T2[1]");
+  ff_dataset_free(ds);
+}
+
 Test(import, quoted_field_over_two_lines)
 {
   struct ff_dataset *ds = load(DIR "quoted_multiline.csv", NULL);

@@ -93,6 +93,22 @@ printf '  time    T1      T2\n     0   5.125  -1.000\n    10   4.500  -1.250\n  
 printf 'time (s),T (C),note\n0,1.5,"start"\n1,1.25,"a note\nover two lines"\n2,1.0,"end, ok"\n' \
   > quoted_multiline.csv
 
+# Names on one line, units on the next; a humidity column.
+printf 'Logger X (synthetic)\nTime;T1;T2;Hum\ns;\302\260C;K;%%\n0;1,5;275,15;40\n1;1,25;275,0;41\n' \
+  > units_row.csv
+
+# Date and time of day in separate columns, across midnight.
+printf 'Date,Time,T (C)\n2026-11-30,23:59:58,1.5\n2026-11-30,23:59:59,1.375\n2026-12-01,00:00:00,1.25\n' \
+  > date_time_columns.csv
+
+# European date-time, Latin-1 degree sign, 12-hour clock in a second file.
+printf 'Datum;Temperatur (\260C)\n30.11.2026 23:59:58;1,5\n30.11.2026 23:59:59;1,4\n01.12.2026 00:00:03;1,3\n' \
+  > dotted_dates.csv
+printf 'Time,T (C)\n11:59:59 PM,1.0\n12:00:01 AM,2.0\n12:00:05 AM,3.0\n' > ampm.csv
+
+# Blank-aligned columns whose names hold single spaces.
+printf '  Time (s)   T1 (C)   T2 (C)\n  0   1.5   2.5\n  1   1.25   2.25\n' > whitespace_names.txt
+
 # Bad input, one problem each.
 : > bad_empty.csv
 printf 'time (s),T (C)\n' > bad_header_only.csv
