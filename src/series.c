@@ -50,6 +50,7 @@ void series_fail(const struct ff_sheet *sh, struct ff_series_run *r, int col,
 struct channel_cache {
   size_t ds;
   long ch;
+  enum ff_method method;
   int status;
   struct ff_diag diag;
   struct ff_event_list ev;
@@ -120,7 +121,7 @@ static long dataset_of(struct ff_series *out, struct caches *k,
 static struct channel_cache *events_of(struct ff_series *out, struct caches *k,
                                        size_t ds, long ch,
                                        const struct ff_solvent *solvent,
-                                       double res_k)
+                                       double res_k, enum ff_method method)
 {
   struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
   const struct ff_dataset *set = out->ds[ds];
@@ -129,7 +130,7 @@ static struct channel_cache *events_of(struct ff_series *out, struct caches *k,
   size_t n;
 
   for (size_t i = 0; i < k->nc; i++)
-    if (k->c[i].ds == ds && k->c[i].ch == ch)
+    if (k->c[i].ds == ds && k->c[i].ch == ch && k->c[i].method == method)
       return &k->c[i];
   if (k->nc == k->capc) {
     size_t cap = k->capc ? 2 * k->capc : 8;
@@ -143,6 +144,7 @@ static struct channel_cache *events_of(struct ff_series *out, struct caches *k,
   memset(cc, 0, sizeof *cc);
   cc->ds = ds;
   cc->ch = ch;
+  cc->method = method;
   t = malloc((set->n + 1) * sizeof *t);
   y = malloc((set->n + 1) * sizeof *y);
   if (t == NULL || y == NULL) {
@@ -153,6 +155,7 @@ static struct channel_cache *events_of(struct ff_series *out, struct caches *k,
   }
   n = ff_dataset_channel_xy(set, (size_t)ch, t, y);
   p.solvent = solvent;
+  p.method = method;
   if (isfinite(res_k) && res_k > 0)
     p.resolution_k = res_k;
   cc->status = ff_detect_run(t, y, n, &p, &cc->ev, &cc->diag);
@@ -187,7 +190,7 @@ static int freezing_point(struct ff_series *out, struct caches *k,
     return FF_OK;
   }
   struct channel_cache *cc = events_of(out, k, (size_t)ds, ch, r->solvent,
-                                       row->thermo_res_k);
+                                       row->thermo_res_k, row->method);
   if (cc == NULL)
     return FF_EIO;
   r->dataset = (size_t)ds;

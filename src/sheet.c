@@ -36,7 +36,7 @@ static const char *const col_names[FF_SHEET_NCOLS] = {
   "run", "file", "channel", "cycle", "role", "solvent", "solvent_g",
   "solute", "solute_g", "molality", "molar_mass", "formula", "particles",
   "hydrate_waters", "kf", "blank", "note", "z_plus", "z_minus",
-  "balance_res_g", "thermo_res_k", "u_kf"
+  "balance_res_g", "thermo_res_k", "u_kf", "method"
 };
 
 /* Other spellings accepted in a header (units written out). */
@@ -369,6 +369,11 @@ static int parse_row(struct ff_sheet *s, struct ff_sheet_row *r,
     return row_fail(s, r, FF_SC_RUN, d, "missing run id");
   if (parse_role(s, r, rec, d) || parse_cycle(s, r, rec, d))
     return FF_EINPUT;
+  const char *m = cell(s, rec, FF_SC_METHOD);
+  if (m[0] != '\0' && ff_method_parse(m, &r->method) != 0)
+    return row_fail(s, r, FF_SC_METHOD, d, "unknown method '%s'; use auto, "
+                    "plateau, peak, extrapolate, intersect, break or model",
+                    m);
   if (need(s, r, rec, FF_SC_FILE, d))
     return FF_EINPUT;
   resolve_path(s, r);

@@ -190,6 +190,36 @@ Test(series, standard_calibrates_kf)
   unload(&f);
 }
 
+/* A reading taken after recalescence (peak) gets the frozen-fraction
+ * correction f = (cp/L) x supercooling (REFERENCES.md 7.1: [F17], cp/L of
+ * water 0.01266 per K [C]); the default reading (back at nucleation) gets
+ * none. The corrected peak depression must come closer to the truth. */
+Test(series, frozen_fraction_correction_for_peak_readings)
+{
+  struct fixture f;
+
+  load(&f, "tests/data/series/peak.csv");
+  const struct ff_series_run *pk = run(&f, "PK"), *au = run(&f, "AU");
+  cr_assert_eq(pk->status, FF_OK, "%s", pk->diag.msg);
+  cr_assert_eq(au->status, FF_OK, "%s", au->diag.msg);
+  cr_expect_eq(pk->event.method, FF_METHOD_PEAK);
+  cr_assert(pk->correction_applied);
+  cr_expect_float_eq(pk->frozen_fraction,
+                     ff_solvent_frozen_per_k(pk->solvent)
+                     * pk->event.supercooling_k, 1e-12);
+  cr_expect_float_eq(ff_solvent_frozen_per_k(pk->solvent), 0.01266, 2e-5);
+  cr_expect_float_eq(pk->depression_k,
+                     pk->depression_obs_k * (1 - pk->frozen_fraction), 1e-12);
+  double truth = KF_WATER * (0.2922 / M_NACL / 0.050) * 1.866;
+  cr_expect(fabs(pk->depression_k - truth)
+            < fabs(pk->depression_obs_k - truth),
+            "corrected %.5f, read %.5f, simulated %.5f", pk->depression_k,
+            pk->depression_obs_k, truth);
+  cr_expect(!au->correction_applied);
+  cr_expect_float_eq(au->frozen_fraction, 0.0, 1e-15);
+  unload(&f);
+}
+
 /* One bad run is reported with its reason; the others still give results. */
 Test(series, bad_runs_fail_alone)
 {

@@ -197,6 +197,8 @@ static const struct bad_case bad_cases[] = {
     5, "cell 10", 10, "header has only 9 columns" },
   { "run,file,role,solvent,cycle\nB1,c.csv,blank,water,second\n", 2, "cycle",
     5, "expected 'last'" },
+  { "run,file,role,solvent,method\nB1,c.csv,blank,water,tangent\n", 2,
+    "method", 5, "unknown method 'tangent'" },
 };
 
 Test(sheet, each_bad_cell_names_line_and_column, .fini = cleanup)
