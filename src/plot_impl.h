@@ -42,6 +42,9 @@ int ff_plot_buf_commit(struct ff_plot_buf *b, const char *dir,
                        const char *name, struct ff_diag *d);
 void ff_plot_buf_discard(struct ff_plot_buf *b);
 
+/* dir/name in a new malloc'd string; NULL when out of memory. */
+char *ff_plot_join(const char *dir, const char *name);
+
 /* Creates dir and its parents (mode 0777 & ~umask). FF_EIO in d. */
 int ff_plot_mkdirs(const char *dir, struct ff_diag *d);
 

@@ -717,8 +717,9 @@ Test(plot, gnuplot_errors_name_the_script_and_others_still_render)
   struct event_data ev;
   struct ff_plot_event_fig f = make_event(&ev, "good1", "t");
   struct ff_plot_set *s;
-  char path[600];
+  char path[600], name[16];
   FILE *fp;
+  int k;
 
   if (!have_gnuplot())
     cr_skip_test("gnuplot is not installed");
@@ -728,8 +729,12 @@ Test(plot, gnuplot_errors_name_the_script_and_others_still_render)
   cr_assert_eq(ff_plot_add_event(s, &f, &d), FF_OK);
   f.name = "broken";
   cr_assert_eq(ff_plot_add_event(s, &f, &d), FF_OK);
-  f.name = "good2";
-  cr_assert_eq(ff_plot_add_event(s, &f, &d), FF_OK);
+  /* Enough figures for two gnuplot processes on a 2-CPU machine. */
+  for (k = 2; k <= 8; k++) {
+    snprintf(name, sizeof name, "good%d", k);
+    f.name = name;
+    cr_assert_eq(ff_plot_add_event(s, &f, &d), FF_OK);
+  }
   /* A user's bad edit: the script now calls an undefined function. */
   snprintf(path, sizeof path, "%s/broken.gp", dir);
   fp = fopen(path, "a");
@@ -741,7 +746,8 @@ Test(plot, gnuplot_errors_name_the_script_and_others_still_render)
   cr_expect(strstr(r.errors, "broken.gp: ") != NULL, "%s", r.errors);
   cr_expect(strstr(r.errors, "good1.gp") == NULL, "%s", r.errors);
   cr_expect(strstr(d.msg, "'broken.gp'") != NULL, "%s", d.msg);
-  cr_expect(exists(dir, "good1.png") && exists(dir, "good2.png"));
+  cr_expect(exists(dir, "good1.png") && exists(dir, "good2.png") &&
+            exists(dir, "good8.png"));
   ff_plot_set_free(s);
   rm_tree(dir);
 }
@@ -770,8 +776,8 @@ Test(plot, renders_twenty_events_in_seconds)
     cr_assert_eq(ff_plot_add_event(s, &f, &d), FF_OK);
   }
   cr_assert_eq(ff_plot_render(s, &r, &d), FF_OK, "%s", r.errors);
-  cr_log_info("20 event figures x png,svg,pdf: %.2f s in one gnuplot run",
-              r.seconds);
+  cr_log_info("20 event figures x png,svg,pdf: %.2f s with %u gnuplot "
+              "process(es)", r.seconds, r.processes);
   /* Issue 5 asks for "a few seconds, not a minute"; generous for CI. */
   cr_expect_lt(r.seconds, 20.0, "took %.1f s", r.seconds);
   cr_expect(exists(dir, "run20.pdf"));

@@ -13,7 +13,8 @@
  *   NAME.dat  its data, whitespace-separated, a '#' comment header naming
  *             every block and column (blocks are gnuplot "index" blocks);
  * and ff_plot_render() writes render.gp (loads every figure script) and,
- * when gnuplot is on PATH, runs one gnuplot process for all figures:
+ * when gnuplot is on PATH, runs gnuplot (a few processes, not one per
+ * figure):
  * NAME.png (pngcairo), NAME.svg, NAME.pdf (pdfcairo) as the format set asks.
  *
  * Every text that may come from user files (titles, run ids, solute and
@@ -160,6 +161,7 @@ struct ff_plot_report {
   size_t n_figures;            /* figure scripts in the set */
   size_t n_failed;             /* figures gnuplot failed on */
   double seconds;              /* wall time gnuplot took */
+  unsigned processes;          /* gnuplot processes run side by side */
   char command[1200];          /* shell line that renders the set, e.g.
                                   cd '/out' && gnuplot render.gp */
   char errors[4096];           /* gnuplot's stderr, "NAME.gp: message"
@@ -199,8 +201,10 @@ int ff_plot_add_overview(struct ff_plot_set *s,
 
 /*
  * Writes render.gp and, unless opts.no_render or gnuplot is not found,
- * runs gnuplot once over all figures (fork/exec, no shell, stderr
- * captured). A missing gnuplot is not an error: FF_OK with
+ * runs gnuplot over all figures (fork/exec, no shell, stderr captured):
+ * one process per CPU (at most 4, at least 4 figures each), each loading
+ * a contiguous share of the scripts; an error in one figure does not stop
+ * the others. A missing gnuplot is not an error: FF_OK with
  * r->rendered = 0 and r->command telling how to render. FF_EIO when
  * gnuplot failed on a figure (r->errors names each script) or could not
  * be run. r may not be NULL.
