@@ -205,7 +205,7 @@ static void print_runs(const struct ff_series *s)
            num(a, sizeof a, 5, r->tf_c),
            blank ? (isfinite(r->depression_obs_k)
                     ? (snprintf(b, sizeof b, "drift %+.5f",
-                                -r->depression_obs_k), b)
+                                r->tf_c - r->tf_blank_c), b)
                     : "-")
                  : pm(b, sizeof b, r->depression_k, r->u_depression_k),
            num(c, sizeof c, 6, r->molality_mol_kg),
@@ -836,11 +836,18 @@ int ff_cmd_series(int argc, char **argv)
   for (size_t k = 0; k < s.n_runs; k++)
     if (s.runs[k].status != FF_OK && sh.row[k].diag.status == FF_OK)
       ff_cli_msg("%s", ff_diag_format(&s.runs[k].diag, buf, sizeof buf));
-  for (size_t k = 0; k < s.n_solutes; k++)
-    if (s.solutes[k].status != FF_OK && !o.quiet)
-      ff_cli_msg("%s: solute '%s' in %s: no fit: %s", o.sheet,
-                 s.solutes[k].solute, s.solutes[k].solvent,
-                 s.solutes[k].diag.msg);
+  for (size_t k = 0; k < s.n_solutes; k++) {
+    const struct ff_series_solute *g = &s.solutes[k];
+    if (g->status == FF_OK)
+      continue;
+    if (g->n >= 3)
+      ff_cli_msg("%s: solute '%s' in %s: no fit: %s", o.sheet, g->solute,
+                 g->solvent, g->diag.msg);
+    else if (!o.quiet)
+      ff_cli_msg("%s: solute '%s' in %s: %zu run%s, too few to extrapolate "
+                 "(3 needed)", o.sheet, g->solute, g->solvent, g->n,
+                 g->n == 1 ? "" : "s");
+  }
   for (size_t k = 0; k < s.n_unknowns; k++)
     if (s.unknowns[k].status != FF_OK)
       ff_cli_msg("%s: unknown '%s' in %s: no molar mass: %s", o.sheet,
