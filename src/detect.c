@@ -23,8 +23,11 @@
 /* Slope before a break must exceed the slope after by this factor: an
  * exponential approach to the bath with tau > 15 s never does over 30 s. */
 #define BREAK_RATIO 8.0
-/* Model method allowance, as a fraction of the correction it applies. */
-#define MODEL_U_FRACTION 0.005
+/* Start of the liquid branch skipped for the Newton fit, s: without a
+ * measure of the probe lag (a 5 s lag leaves 0.25 % of the initial offset
+ * after 30 s), and at least, with one. */
+#define LIQUID_SKIP_S 30.0
+#define LIQUID_SKIP_MIN_S 10.0
 /* After a slope break the probe lag rounds the corner; settle this long. */
 #define BREAK_SETTLE_S 30.0
 /* A thaw is a rise of this much above the lowest point of the branch, K. */
@@ -290,7 +293,7 @@ static size_t melted(const struct dctx *c, size_t i, double level)
 /* Liquid fits over [lw0, lw1): Newton (kind 1) and the textbook line over
  * its last minute (kind 2). */
 static void fit_liquid(const struct dctx *c, struct ff_event *e, size_t lw0,
-                       size_t lw1)
+                       size_t lw1, double skip_s)
 {
   double span, c0, c1, cov[3], rms, skip;
   size_t a;
@@ -301,10 +304,9 @@ static void fit_liquid(const struct dctx *c, struct ff_event *e, size_t lw0,
   }
   span = c->t[lw1 - 1] - c->t[lw0];
   /* The start of cooling carries the probe's and the tube's transients
-   * (and the rounded turn from warming): a probe lag of 5 s still leaves
-   * 0.25 % of the initial offset after 30 s, and that biases Tb and tau.
-   * Skip 30 s (at most a third of a short branch), at least a tenth. */
-  skip = fmax(fmin(30.0, span / 3.0), 0.1 * span);
+   * (and the rounded turn from warming): skip_s of it (the caller's
+   * measure of the probe lag), at most a third, at least a tenth. */
+  skip = fmax(fmin(skip_s, span / 3.0), 0.1 * span);
   a = dd_index_at(c, c->t[lw0] + skip);
   if (span < c->p->min_liquid_s || a + 3 >= lw1)
     e->flags |= FF_FLAG_LIQUID_SHORT;
@@ -397,13 +399,6 @@ static void choose(const struct dctx *c, struct ff_event *e)
     e->u_noise_k = 0.0;
   }
   e->u_method_k = 0.0;
-  /* The model's own allowance: 0.5 % of the correction it applies (model
-   * minus the plain maximum), the median of its error against the
-   * simulator over the accuracy benchmark (docs/validation-detection.md):
-   * it covers what the fit covariance cannot see (probe transients left in
-   * the Newton fit, heat capacities, ice growth kinetics). */
-  if (m == FF_METHOD_MODEL && isfinite(e->peak_c))
-    e->u_method_k = MODEL_U_FRACTION * fabs(es->value_c - e->peak_c);
   e->u_freezing_point_k = sqrt(e->u_fit_k * e->u_fit_k
                                + e->u_noise_k * e->u_noise_k
                                + e->u_resolution_k * e->u_resolution_k
@@ -476,7 +471,7 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
 {
   const struct ff_detect_params *p = c->p;
   size_t h = half_width(c), lw0 = seg0, lw1, b0, s0, mb_end;
-  double settle, tmin = c->y[m];
+  double settle, t90, tmin = c->y[m];
 
   e->start_s = c->t[seg0];
   e->end_s = c->t[b_end - 1];
@@ -499,31 +494,36 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
   snprintf(e->est[FF_METHOD_BREAK].why, sizeof e->est[FF_METHOD_BREAK].why,
            "supercooling seen: a slope break does not apply");
 
-  /* Liquid branch: from the warmest point of the segment to just before
-   * the minimum (the smoothing and the corner spoil the last samples). */
-  for (size_t k = seg0; k < m; k++)
-    if (c->ys[k] > c->ys[lw0])
-      lw0 = k;
-  lw1 = m > h + 1 ? m - h - 1 : 0;
-  if (lw1 > lw0)
-    fit_liquid(c, e, lw0, lw1);
-  else
-    e->flags |= FF_FLAG_LIQUID_SHORT;
-
-  /* Settling: the time to 90 % of the rise is about 2.3 probe time
-   * constants (plus the ice growth); three times it, counted from the
-   * nucleation, leaves about 0.1 % of the rise. The branch starts there,
-   * and never before the peak. */
+  /* The time to 90 % of the rise is about 2.3 probe time constants plus
+   * the ice growth: the measure of the probe lag used below. */
   {
     size_t k90 = m;
     double lvl = e->t_min_c + 0.9 * (e->peak_c - e->t_min_c);
     while (k90 < pk && c->ys[k90] < lvl)
       k90++;
-    settle = p->settle_s >= 0.0
-             ? p->settle_s
-             : fmin(60.0, fmax(3.0 * c->dt, 3.0 * (c->t[k90] - c->t[m])
-                                                - (c->t[pk] - c->t[m])));
+    t90 = c->t[k90] - c->t[m];
   }
+
+  /* Liquid branch: from the warmest point of the segment to just before
+   * the minimum (the smoothing and the rounded corner spoil the last
+   * samples). Its start carries the probe's transient: a lag leaves
+   * exp(-6.9) = 0.1 % of the offset after 3 t90; 30 s when the rise gives
+   * no measure. */
+  for (size_t k = seg0; k < m; k++)
+    if (c->ys[k] > c->ys[lw0])
+      lw0 = k;
+  lw1 = dd_index_at(c, c->t[m] - fmax((double)(h + 1) * c->dt, 0.5 * t90));
+  if (lw1 > lw0)
+    fit_liquid(c, e, lw0, lw1, t90 > 0.0 ? fmax(LIQUID_SKIP_MIN_S, 3.0 * t90)
+                                         : LIQUID_SKIP_S);
+  else
+    e->flags |= FF_FLAG_LIQUID_SHORT;
+
+  /* Settling of the freezing branch: 3 t90 from the nucleation leaves
+   * about 0.1 % of the rise; never before the peak. */
+  settle = p->settle_s >= 0.0
+           ? p->settle_s
+           : fmin(60.0, fmax(3.0 * c->dt, 3.0 * t90 - (c->t[pk] - c->t[m])));
   b0 = dd_index_at(c, c->t[pk] + settle);
   if (b0 >= b_end || c->t[b_end - 1] - c->t[b0] < p->min_branch_s) {
     e->flags |= FF_FLAG_BRANCH_SHORT;
@@ -639,7 +639,7 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
   /* The corner is rounded by the probe lag: the liquid fits stop short. */
   lw1 = dd_index_at(c, c->t[k] - 0.5 * BREAK_WINDOW_S);
   if (lw1 > lw0 + 3)
-    fit_liquid(c, e, lw0, lw1);
+    fit_liquid(c, e, lw0, lw1, LIQUID_SKIP_S);
   else
     e->flags |= FF_FLAG_LIQUID_SHORT;
   a = dd_index_at(c, c->t[k] - 120.0);

@@ -193,6 +193,17 @@ int dd_newton(const struct dctx *c, size_t i0, size_t i1,
       f->start_s = c->t[i0];
       f->end_s = c->t[i1 - 1];
       f->rms_k = sqrt(ss / (double)n);
+      f->u_bath_c = f->u_tau_s = NAN;
+      {
+        gsl_matrix *cv = gsl_matrix_alloc(3, 3);
+        if (cv != NULL && gsl_multifit_nlinear_covar(
+                gsl_multifit_nlinear_jac(w), 0.0, cv) == GSL_SUCCESS) {
+          double s2 = ss / (double)(n - 3);
+          f->u_bath_c = sqrt(gsl_matrix_get(cv, 0, 0) * s2);
+          f->u_tau_s = sqrt(gsl_matrix_get(cv, 2, 2) * s2) / (kk * kk);
+        }
+        gsl_matrix_free(cv);
+      }
       ret = 0;
     }
   }
@@ -460,70 +471,47 @@ void dd_break(const struct dctx *c, struct ff_event *e, size_t l0, size_t i1)
 
 /* ---- energy-balance model -------------------------------------------- */
 
-/*
- * Frozen fraction x from the energy balance of the tube, integrated from a
- * liquid point s0 before nucleation (x = 0 there):
- *   C(x) dT/dt = -h (T - Tb) + L m dx/dt,  C(x) = m [(1 - x) cp_l + x cp_s],
- *   h = m cp_l / tau  (Newton fit of the liquid branch: Tb, tau).
- * Written with D = T - T_L, the departure from the extrapolated liquid curve
- * T_L (which obeys dT_L = -(T_L - Tb) dt / tau):
- *   L dx = C(x)/m dD + cp_l D dt / tau + (C(x)/m - cp_l) dT_L.
- * D is zero before nucleation, so the start s0 does not matter, and a
- * thermometer with first-order lag sees T and T_L lagged alike: x(t) and T(t)
- * read from it stay paired (to first order in the lag), with no offset. The quasi-equilibrium branch then follows the
- * freezing point of the concentrated solution, T = Tf0 - delta / (1 - x):
- * linear in 1/(1 - x). Its value at x = 0 is the initial solution's.
- */
-void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
-              size_t i1)
+/* One pass of the model with the liquid fit l: value, its fit u, delta,
+ * u(delta), and x at the peak. Returns 0, or -1 with why in es. */
+static int model_pass(const struct dctx *c, const struct ff_event *e,
+                      const struct ff_liquid_fit *l, size_t s0, size_t i0,
+                      size_t i1, double out[5], struct ff_estimate *es)
 {
-  struct ff_estimate *es = &e->est[FF_METHOD_MODEL];
-  const struct ff_liquid_fit *l = &e->liquid;
-  double *x, tau;
-  size_t n, m = 0, pk;
+  struct ff_event tmp;
+  double *x, tau = l->tau_s, chisq;
+  size_t n = i1 - s0, m = 0, pk;
   gsl_matrix *X = NULL, *cov = NULL;
   gsl_vector *w = NULL, *yv = NULL, *cf = NULL;
   gsl_multifit_linear_workspace *ws = NULL;
-  double chisq;
+  int ret = -1;
 
-  if (l->kind != 1) {
-    est_fail(es, "the liquid branch does not give a bath temperature and "
-             "time constant");
-    return;
-  }
-  if (!(i1 > i0 && i0 > s0)) {
-    est_fail(es, "freezing branch too short");
-    return;
-  }
-  tau = l->tau_s;
-  n = i1 - s0;
+  tmp.liquid = *l;             /* ff_event_eval_liquid reads only this */
   x = malloc(n * sizeof *x);
   if (x == NULL) {
     est_fail(es, "out of memory");
-    return;
+    return -1;
   }
   x[0] = 0.0;
   for (size_t j = 1; j < n; j++) {
     size_t a = s0 + j - 1, b = a + 1;
     double xc = x[j - 1] < 0.0 ? 0.0 : (x[j - 1] > 1.0 ? 1.0 : x[j - 1]);
     double cap = (1.0 - xc) * c->cpl + xc * c->cps;
-    double la = ff_event_eval_liquid(e, c->t[a]),
-           lb = ff_event_eval_liquid(e, c->t[b]);
+    double la = ff_event_eval_liquid(&tmp, c->t[a]),
+           lb = ff_event_eval_liquid(&tmp, c->t[b]);
     double da = c->ys[a] - la, db = c->ys[b] - lb;
     x[j] = x[j - 1] + (cap * (db - da)
                        + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) / tau
                        + (cap - c->cpl) * (lb - la)) / c->lat;
   }
   pk = dd_index_at(c, e->peak_time_s);
-  if (pk >= s0 && pk < i1)
-    e->frozen_fraction = x[pk - s0];
+  out[4] = (pk >= s0 && pk < i1) ? x[pk - s0] : NAN;
   for (size_t i = i0; i < i1; i++)
     if (x[i - s0] > 0.0 && x[i - s0] <= MODEL_X_MAX)
       m++;
   if (m < 2 * MIN_FIT_POINTS) {
     free(x);
     est_fail(es, "too few settled points on the freezing branch");
-    return;
+    return -1;
   }
   X = gsl_matrix_alloc(m, 2);
   cov = gsl_matrix_alloc(2, 2);
@@ -545,11 +533,11 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
     }
     if (gsl_multifit_wlinear(X, w, yv, cf, cov, &chisq, ws) == GSL_SUCCESS) {
       double s2 = chisq / (double)(m - 2);
-      double a = gsl_vector_get(cf, 0), b = gsl_vector_get(cf, 1);
-      e->model_delta_k = -b;
-      e->model_u_delta_k = sqrt(gsl_matrix_get(cov, 1, 1) * s2);
-      e->model_tf0_c = a - b;
-      est_set(es, a, sqrt(gsl_matrix_get(cov, 0, 0) * s2));
+      out[0] = gsl_vector_get(cf, 0);
+      out[1] = sqrt(gsl_matrix_get(cov, 0, 0) * s2);
+      out[2] = -gsl_vector_get(cf, 1);
+      out[3] = sqrt(gsl_matrix_get(cov, 1, 1) * s2);
+      ret = 0;
     } else {
       est_fail(es, "the branch fit failed");
     }
@@ -564,4 +552,62 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
   if (ws)
     gsl_multifit_linear_free(ws);
   free(x);
+  return ret;
+}
+
+/*
+ * Frozen fraction x from the energy balance of the tube, integrated from a
+ * liquid point s0 before nucleation (x = 0 there):
+ *   C(x) dT/dt = -h (T - Tb) + L m dx/dt,  C(x) = m [(1 - x) cp_l + x cp_s],
+ *   h = m cp_l / tau  (Newton fit of the liquid branch: Tb, tau).
+ * Written with D = T - T_L, the departure from the extrapolated liquid curve
+ * T_L (which obeys dT_L = -(T_L - Tb) dt / tau):
+ *   L dx = C(x)/m dD + cp_l D dt / tau + (C(x)/m - cp_l) dT_L.
+ * D is zero before nucleation, so the start s0 does not matter, and a
+ * thermometer with first-order lag sees T and T_L lagged alike: x(t) and T(t)
+ * read from it stay paired (to first order in the lag), with no offset.
+ * The quasi-equilibrium branch then follows the freezing point of the
+ * concentrated solution, T = Tf0 - delta / (1 - x): linear in 1/(1 - x).
+ * Its value at x = 0 is the initial solution's. The uncertainty adds, by
+ * finite differences (GUM sensitivity coefficients), what the bath
+ * temperature and time constant of the Newton fit carry into the result.
+ */
+void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
+              size_t i1)
+{
+  struct ff_estimate *es = &e->est[FF_METHOD_MODEL];
+  const struct ff_liquid_fit *l = &e->liquid;
+  double r0[5], r1[5], u2;
+
+  if (l->kind != 1) {
+    est_fail(es, "the liquid branch does not give a bath temperature and "
+             "time constant");
+    return;
+  }
+  if (!(i1 > i0 && i0 > s0)) {
+    est_fail(es, "freezing branch too short");
+    return;
+  }
+  if (model_pass(c, e, l, s0, i0, i1, r0, es) != 0)
+    return;
+  e->model_delta_k = r0[2];
+  e->model_u_delta_k = r0[3];
+  e->model_tf0_c = r0[0] + r0[2];
+  if (isfinite(r0[4]))
+    e->frozen_fraction = r0[4];
+  u2 = r0[1] * r0[1];
+  for (int q = 0; q < 2; q++) {
+    struct ff_liquid_fit lp = *l;
+    struct ff_estimate dummy;
+    double du = q == 0 ? l->u_bath_c : l->u_tau_s;
+    if (!isfinite(du) || !(du > 0.0))
+      continue;
+    if (q == 0)
+      lp.bath_c += du;
+    else
+      lp.tau_s += du;
+    if (model_pass(c, e, &lp, s0, i0, i1, r1, &dummy) == 0)
+      u2 += (r1[0] - r0[0]) * (r1[0] - r0[0]);
+  }
+  est_set(es, r0[0], sqrt(u2));
 }

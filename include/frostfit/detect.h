@@ -70,6 +70,7 @@ struct ff_liquid_fit {
   double t_ref_s, t0_c, bath_c, tau_s, slope_k_s;
   double start_s, end_s;       /* fitted window */
   double rms_k;                /* residual rms */
+  double u_bath_c, u_tau_s;    /* Newton: standard uncertainties */
 };
 
 /* Freezing-branch fit: T = c[0] + c[1] (t - t_ref) + c[2] (t - t_ref)^2. */
