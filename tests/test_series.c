@@ -2,7 +2,10 @@
  * (tests/data/series/make.sh): known depressions, i and molar mass come
  * back, the limiting value nu lies in its interval, runs fail one by one. */
 #include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 #include <criterion/criterion.h>
 #include <gsl/gsl_errno.h>
 
@@ -218,6 +221,43 @@ Test(series, frozen_fraction_correction_for_peak_readings)
   cr_expect(!au->correction_applied);
   cr_expect_float_eq(au->frozen_fraction, 0.0, 1e-15);
   unload(&f);
+}
+
+/* A hydrate is weighed with its water: moles from M(hydrate), and in water
+ * the water of crystallisation joins the solvent (DESIGN.md section 4).
+ * CuSO4*5H2O: 249.68 g/mol from IUPAC 2021 abridged weights (computed). */
+Test(series, hydrate_water_joins_the_solvent)
+{
+  char dir[] = "/tmp/ff-series-XXXXXX", sheet[600], cwd[400];
+  struct fixture f;
+  FILE *fp;
+
+  cr_assert_not_null(mkdtemp(dir));
+  cr_assert_not_null(getcwd(cwd, sizeof cwd));
+  snprintf(sheet, sizeof sheet, "%s/hyd.csv", dir);
+  fp = fopen(sheet, "w");
+  cr_assert_not_null(fp);
+  fprintf(fp, "run,file,channel,role,solvent,solvent_g,solute,solute_g,"
+          "formula,blank\n"
+          "W0,%s/tests/data/series/water.csv,1,blank,water,,,,,\n"
+          "H1,%s/tests/data/series/water.csv,5,sample,water,48.731,"
+          "copper sulfate,1.2483,CuSO4*5H2O,W0\n", cwd, cwd);
+  fclose(fp);
+  load(&f, sheet);
+  const struct ff_series_run *r = run(&f, "H1");
+  cr_assert_eq(r->status, FF_OK, "%s", r->diag.msg);
+  double mol = 1.2483 / 249.68;
+  double water_g = 48.731 + mol * 5 * 18.015268;
+  cr_expect_float_eq(r->solvent_eff_g, water_g, 0.002, "%.4f",
+                     r->solvent_eff_g);
+  cr_expect_float_eq(r->molality_mol_kg, mol / (water_g / 1000), 2e-5,
+                     "%.6f", r->molality_mol_kg);
+  cr_expect_eq(r->particles.nu, 2);
+  cr_expect_eq(r->particles.z_plus, 2);
+  cr_expect_eq(r->particles.z_minus, 2);
+  unload(&f);
+  unlink(sheet);
+  rmdir(dir);
 }
 
 /* One bad run is reported with its reason; the others still give results. */
