@@ -55,7 +55,8 @@ static json_t *flags_json(unsigned flags)
 
 /* Numbers of a run; everything NaN (null) when the run failed, so a failed
  * analysis never shows a number. */
-static json_t *run_json(const struct ff_series *s, const struct ff_series_run *r)
+static json_t *run_json(const struct ff_series *s,
+                        const struct ff_series_run *r)
 {
   const struct ff_sheet_row *row = &s->sheet->row[r->row];
   int ok = r->status == FF_OK;

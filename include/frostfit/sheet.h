@@ -41,7 +41,7 @@ struct ff_sheet_row {
   unsigned cycle;              /* 1-based, or FF_SHEET_CYCLE_LAST */
   enum ff_sheet_role role;
   char solvent[64];
-  double solvent_g;            /* g of solvent weighed (without hydrate water) */
+  double solvent_g;            /* g of solvent weighed (no hydrate water) */
   char solute[128];            /* name used to group runs */
   double solute_g;             /* g of solute as weighed (hydrate included) */
   double molality_mol_kg;      /* when given instead of masses */
