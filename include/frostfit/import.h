@@ -18,7 +18,10 @@ enum ff_time_format {
   FF_TIME_ISO8601      /* date-time, optional zone offset */
 };
 
-/* How to read a file. Zero/NULL fields mean "find out from the file". */
+/*
+ * How to read a file. Zero/NULL fields mean "find out from the file".
+ * See docs/formats/logger-csv.md for what is recognised.
+ */
 struct ff_import_opts {
   char delimiter;                  /* ',', ';', '\t', ' ' or 0 = sniff */
   char decimal;                    /* '.', ',' or 0 = sniff */
@@ -47,8 +50,9 @@ struct ff_channel {
   unsigned column;                 /* 1-based CSV column */
   enum ff_temp_unit unit_in;       /* unit found in the file */
   double *temp_c;                  /* n values (dataset's n); NaN = missing */
-  size_t n_missing;                /* cells skipped as missing */
-  double min_c, max_c;             /* over the values present */
+  size_t n_missing;                /* NaN among the n kept rows */
+  double min_c, max_c;             /* over the values present; NaN when
+                                      the channel has none */
 };
 
 struct ff_dialect {
@@ -64,13 +68,14 @@ struct ff_dialect {
 };
 
 struct ff_import_stats {
-  size_t rows_read;                /* data rows seen */
+  size_t rows_read;                /* data rows seen ('#' and blank lines
+                                      not counted) */
   size_t rows_kept;                /* = dataset n */
   size_t rows_no_time;             /* time cell missing or unreadable */
   size_t rows_time_backwards;      /* time stamp earlier than the previous */
   size_t rows_time_duplicate;      /* time stamp equal to the previous */
-  size_t rows_all_missing;         /* no channel had a value */
-  unsigned long first_backwards_line; /* first line of such a problem, 0 */
+  size_t rows_all_missing;         /* no channel had a value (skipped) */
+  unsigned long first_backwards_line; /* first line of such a row, 0 */
   unsigned long first_duplicate_line;
   size_t midnight_wraps;           /* clock times that passed midnight */
 };
@@ -99,11 +104,16 @@ struct ff_dataset {
 
 /*
  * Reads path ("-" = standard input) with libcsv, streaming: the file's text
- * is never held whole, only the numbers (8 bytes a value). Returns a new
- * dataset, or NULL with the reason in d: FF_EINPUT with line and column for
- * bad data (empty file, header only, no time column, no temperature column,
- * binary or UTF-16 content, ragged or truncated rows, absurd line lengths),
- * FF_EIO when the file cannot be read or memory runs out.
+ * is never held whole, only the numbers (8 bytes a value). o may be NULL
+ * (defaults). Missing cells, sentinel values and overflow markers become
+ * NaN; rows without a time, with a repeated or backwards time, or with no
+ * temperature at all are skipped and counted in stats. Temperatures are
+ * converted to degrees C. The process locale is never consulted.
+ * Returns a new dataset, or NULL with the reason in d: FF_EINPUT with line
+ * and column for bad data (empty file, header only, no time column, no
+ * temperature column, binary or UTF-16 content, ragged or truncated rows,
+ * absurd line lengths, a cell that is neither a number nor a missing
+ * marker), FF_EIO when the file cannot be opened or read or memory runs out.
  */
 struct ff_dataset *ff_import_file(const char *path,
                                   const struct ff_import_opts *o,
