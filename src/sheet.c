@@ -721,8 +721,6 @@ static int take_record(struct ff_sheet *s, const char *text, size_t len,
   struct ff_loc at = { s->path, line, 0 };
   int st = FF_OK;
 
-  if (!*have_header)
-    s->delimiter = sniff_delimiter(text, len);
   if (skip_record(text, len, s->delimiter))
     return FF_OK;
   if (split(text, len, s->delimiter, &rec) != 0) {
@@ -771,9 +769,10 @@ static int take_record(struct ff_sheet *s, const char *text, size_t len,
 
 int ff_sheet_read(const char *path, struct ff_sheet *out, struct ff_diag *d)
 {
+  enum { FIELD_START, UNQUOTED, QUOTED, QUOTE_IN_QUOTED } state = FIELD_START;
   size_t len = 0, start = 0, pos;
   unsigned long line = 1, rec_line = 1;
-  int have_header = 0, quoted = 0, st = FF_OK;
+  int have_header = 0, comment = 0, st = FF_OK;
   char *text;
 
   snprintf(out->path, sizeof out->path, "%s", path);
@@ -788,16 +787,54 @@ int ff_sheet_read(const char *path, struct ff_sheet *out, struct ff_diag *d)
     free(text);
     return ff_diag_set(d, FF_EINPUT, &at, "binary content: not a run sheet");
   }
-  /* Walk physical lines; a record ends at a line end outside quotes. The
-   * header row fixes the column count; a record's line is where it starts. */
+  /* Walk the text with the CSV quoting rules to find where each record
+   * ends (libcsv reports fields, not positions): a quote opens a quoted
+   * field only at the start of a field, "" inside one is a quote, and a
+   * line end inside one belongs to the field. A '#' line is a comment
+   * whatever it holds. A record's line is the one it starts on. */
   pos = start;
   for (size_t k = start; k <= len && st == FF_OK; k++) {
-    int end_of_line = k == len || text[k] == '\n' || text[k] == '\r';
-    if (k < len && text[k] == '"')
-      quoted = !quoted;
-    if (!end_of_line)
+    int eol = k == len || text[k] == '\n' || text[k] == '\r';
+
+    if (k == pos) {                     /* a record starts here */
+      size_t q = k;
+      while (q < len && (text[q] == ' ' || text[q] == '\t'))
+        q++;
+      comment = q < len && text[q] == '#';
+      if (!have_header && !comment) {
+        size_t e = k;
+        while (e < len && text[e] != '\n' && text[e] != '\r')
+          e++;
+        out->delimiter = sniff_delimiter(text + k, e - k);
+      }
+      state = FIELD_START;
+    }
+    if (!eol && !comment) {
+      char c = text[k];
+      switch (state) {
+      case FIELD_START:
+        if (c == '"')
+          state = QUOTED;
+        else if (c != out->delimiter && c != ' ' && c != '\t')
+          state = UNQUOTED;
+        break;
+      case UNQUOTED:
+        if (c == out->delimiter)
+          state = FIELD_START;
+        break;
+      case QUOTED:
+        if (c == '"')
+          state = QUOTE_IN_QUOTED;
+        break;
+      case QUOTE_IN_QUOTED:
+        state = c == '"' ? QUOTED : c == out->delimiter ? FIELD_START
+                                                        : UNQUOTED;
+        break;
+      }
+    }
+    if (!eol)
       continue;
-    if (quoted && k < len) {
+    if (state == QUOTED && !comment && k < len) {
       if (text[k] == '\n' || (text[k] == '\r' && text[k + 1] != '\n'))
         line++;
       continue;
@@ -808,7 +845,6 @@ int ff_sheet_read(const char *path, struct ff_sheet *out, struct ff_diag *d)
     line++;
     rec_line = line;
     pos = k + 1;
-    quoted = 0;
   }
   free(text);
   if (st != FF_OK) {

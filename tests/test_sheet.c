@@ -322,3 +322,25 @@ Test(sheet, unknown_solvent_names_the_known_ones, .fini = cleanup)
   ff_sheet_release(&s);
   ff_solvent_table_release(&t);
 }
+
+/* Quotes count only where CSV says so: a lone quote in a comment or in the
+ * middle of an unquoted cell must not swallow the lines after it. */
+Test(sheet, stray_quotes_do_not_swallow_lines, .fini = cleanup)
+{
+  struct ff_sheet s = FF_SHEET_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  const char *path = write_sheet(
+    "# the 5\" tube, \"old bath\n"
+    "run,file,role,solvent,note\n"
+    "B1,c.csv,blank,water,a 5\" tube\n"
+    "B2,c.csv,blank,water,\"said \"\"fine\"\"\"\n"
+    "B3,c.csv,blank,water,last\n");
+
+  cr_assert_eq(ff_sheet_read(path, &s, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(s.n, 3);
+  cr_expect_str_eq(s.row[0].note, "a 5\" tube");
+  cr_expect_str_eq(s.row[1].note, "said \"fine\"");
+  cr_expect_eq(s.row[2].line, 5);
+  cr_expect_str_eq(s.row[2].run, "B3");
+  ff_sheet_release(&s);
+}
