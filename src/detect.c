@@ -173,11 +173,31 @@ static int check_input(const double *t, const double *y, size_t n,
 }
 
 /*
+ * The reading step when the data are quantised: the smallest change seen,
+ * if (nearly) every change is a whole multiple of it, or if many successive
+ * readings repeat exactly. 0 when the readings look continuous.
+ */
+static double quantum(const struct dctx *c, double step, size_t zeros)
+{
+  size_t bad = 0;
+
+  if (!isfinite(step) || !(step > 0.0))
+    return 0.0;
+  if (zeros > c->n / 5)
+    return step;
+  for (size_t i = 1; i < c->n; i++) {
+    double q = fabs(c->y[i] - c->y[i - 1]) / step;
+    if (fabs(q - round(q)) > 0.01)
+      bad++;
+  }
+  return bad <= c->n / 100 ? step : 0.0;
+}
+
+/*
  * Noise of one reading from second differences (robust to the signal's
  * slow curvature and to the few jumps of recalescence): for white noise
  * var(y[i+1] - 2 y[i] + y[i-1]) = 6 sigma^2; MAD * 1.4826 estimates sd.
- * Resolution: when many successive readings repeat exactly, the data are
- * quantised and the smallest step seen is the resolution.
+ * Resolution: see quantum().
  */
 static int estimate_noise(struct dctx *c)
 {
@@ -202,7 +222,7 @@ static int estimate_noise(struct dctx *c)
   if (c->p->resolution_k > 0.0)
     c->res = c->p->resolution_k;
   else
-    c->res = (zeros > n / 5 && isfinite(step)) ? step : 0.0;
+    c->res = quantum(c, step, zeros);
   /* Quantisation alone leaves a rectangular error of sd res/sqrt(12). */
   if (c->sigma < c->res / sqrt(12.0))
     c->sigma = c->res / sqrt(12.0);
