@@ -23,6 +23,7 @@ struct reader {
   struct ff_dataset *ds;
   struct csv_parser csv;
   size_t n_columns, time_col;
+  size_t min_fields;           /* trailing empty columns may be left out */
   long *chan;                  /* per column: channel index, or -1 */
   enum ff_time_format tf;
   double time_scale;           /* numeric time to seconds */
@@ -248,7 +249,7 @@ static void on_record(int term, void *data)
   if (!r->failed && !(r->ws && nf == 0)) {
     struct ff_loc loc;
     r->ds->stats.rows_read++;
-    if (nf < r->n_columns) {
+    if (nf < r->min_fields) {
       loc = here(r, (unsigned long)nf + 1);
       if (term == -1 && r->at_eof)
         ff_diag_set(r->d, FF_EINPUT, &loc,
@@ -410,6 +411,10 @@ static int setup(struct reader *r, const struct ff_sniff *sn)
                  ? (long)ds->col[c].channel - 1 : -1;
   for (size_t k = 0; k < ds->n_channels; k++)
     r->row_v[k] = NAN;
+  r->min_fields = r->n_columns;
+  while (r->min_fields > 1 && ds->col[r->min_fields - 1].role == FF_ROLE_IGNORE
+         && strcmp(ds->col[r->min_fields - 1].why, FF_IMPORT_WHY_EMPTY) == 0)
+    r->min_fields--;
   if (csv_init(&r->csv, opts) != 0)
     return -1;
   csv_set_delim(&r->csv, (unsigned char)ds->dialect.delimiter);

@@ -10,6 +10,8 @@
 #define FF_IMPORT_MAX_LINE ((size_t)1 << 20)
 /* Bytes read at the start of a file to recognise its dialect. */
 #define FF_IMPORT_SNIFF_BYTES ((size_t)256 * 1024)
+/* The reason given for a column without any value in the sample. */
+#define FF_IMPORT_WHY_EMPTY "empty"
 /* Bytes read per step while streaming. */
 #define FF_IMPORT_CHUNK ((size_t)64 * 1024)
 

@@ -598,7 +598,7 @@ static int plan_columns(struct ff_sniff *out, const struct colstat *cs,
       snprintf(col->why, sizeof col->why, "text, not numbers");
       continue;
     } else {
-      snprintf(col->why, sizeof col->why, "empty");
+      snprintf(col->why, sizeof col->why, "%s", FF_IMPORT_WHY_EMPTY);
       continue;
     }
     col->channel = ++ch;

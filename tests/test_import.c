@@ -361,6 +361,17 @@ Test(import, blank_aligned_names_with_spaces)
   ff_dataset_free(ds);
 }
 
+Test(import, surplus_empty_last_column_may_be_left_out)
+{
+  struct ff_dataset *ds = load(DIR "trailing_separator.csv", NULL);
+
+  cr_assert_eq(ds->n_columns, 3);
+  cr_assert_eq(ds->col[2].role, FF_ROLE_IGNORE);
+  cr_assert_eq(ds->n, 3);
+  near(ds->ch[0].temp_c[1], 1.25, EXACT, "row without the surplus field");
+  ff_dataset_free(ds);
+}
+
 Test(import, quoted_field_over_two_lines)
 {
   struct ff_dataset *ds = load(DIR "quoted_multiline.csv", NULL);

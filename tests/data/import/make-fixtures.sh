@@ -109,6 +109,9 @@ printf 'Time,T (C)\n11:59:59 PM,1.0\n12:00:01 AM,2.0\n12:00:05 AM,3.0\n' > ampm.
 # Blank-aligned columns whose names hold single spaces.
 printf '  Time (s)   T1 (C)   T2 (C)\n  0   1.5   2.5\n  1   1.25   2.25\n' > whitespace_names.txt
 
+# Some rows end with a surplus separator (an empty last column), some not.
+printf 'time (s),T (C)\n0,1.5,\n1,1.25\n2,1.0,\n' > trailing_separator.csv
+
 # Bad input, one problem each.
 : > bad_empty.csv
 printf 'time (s),T (C)\n' > bad_header_only.csv
