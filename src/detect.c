@@ -423,6 +423,11 @@ static void choose(const struct dctx *c, struct ff_event *e)
                                + e->u_noise_k * e->u_noise_k
                                + e->u_resolution_k * e->u_resolution_k
                                + e->u_method_k * e->u_method_k);
+  /* Every reading's u then carries the resolution too, as the chosen one
+   * does, so a side-by-side table compares like with like. */
+  for (int k = 1; k < FF_METHOD_COUNT; k++)
+    if (e->est[k].ok)
+      e->est[k].u_k = hypot(e->est[k].u_k, e->u_resolution_k);
   if (e->flags & FF_FLAG_BRANCH_SHORT) {
     e->trusted = 0;
     snprintf(e->status_reason, sizeof e->status_reason, "%s",

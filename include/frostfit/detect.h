@@ -82,7 +82,9 @@ struct ff_branch_fit {
   double rms_k;
 };
 
-/* One method's estimate; ok = 0 when it could not be computed (why says). */
+/* One method's estimate; ok = 0 when it could not be computed (why says).
+ * u_k is its standard uncertainty with the resolution term included (when
+ * the event's chosen method could be computed). */
 struct ff_estimate {
   int ok;
   double value_c, u_k;
