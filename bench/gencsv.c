@@ -22,6 +22,7 @@
 #include <sys/stat.h>
 
 #define KF_WATER 1.86        /* K kg/mol, to give plausible depressions */
+#define CP_OVER_DH (4.18 / 333.6) /* water: J/(g K) over J/g, about 1.25 %/K */
 
 static uint64_t rng_state = 0x9e3779b97f4a7c15ULL;
 
@@ -51,14 +52,13 @@ struct probe {
   double fp_c;               /* equilibrium freezing point of the solution */
   double bath_c, warm_c;
   double tau_cool_s, tau_warm_s, tau_solid_s;
-  double freeze_s;           /* time for the frozen fraction to reach 0.7 */
   double supercool_k;        /* this cycle's */
   double frozen;             /* ice fraction of the water */
   double noise_k;
 };
 
 static void probe_init(struct probe *p, double fp_c, double bath_c,
-                       double warm_c, double freeze_s, double tau_cool_s)
+                       double warm_c, double tau_cool_s)
 {
   memset(p, 0, sizeof *p);
   p->ph = WARM;
@@ -69,7 +69,6 @@ static void probe_init(struct probe *p, double fp_c, double bath_c,
   p->tau_cool_s = tau_cool_s;
   p->tau_warm_s = 600;
   p->tau_solid_s = 400;
-  p->freeze_s = freeze_s;
   p->noise_k = 0.003;
 }
 
@@ -96,11 +95,13 @@ static double probe_step(struct probe *p, double dt)
     if (p->temp_c <= p->fp_c - p->supercool_k) {
       p->ph = FREEZE;
       /* ice formed at nucleation: c_p * dT / dH_fus, about 1.3 % per K */
-      p->frozen = 0.0126 * p->supercool_k;
+      p->frozen = CP_OVER_DH * p->supercool_k;
     }
     break;
   case FREEZE:
-    p->frozen += 0.7 * dt / p->freeze_s;
+    /* energy balance: the heat the bath draws (Newton cooling, same time
+     * constant as the liquid) freezes water: c_p / dH_fus per kelvin */
+    p->frozen += dt * (p->temp_c - p->bath_c) / p->tau_cool_s * CP_OVER_DH;
     /* the remaining liquid is more concentrated; a little heat-flow offset */
     target = p->fp_c / (1.0 - p->frozen) - 0.03 * p->frozen;
     tau = 4.0;               /* recalescence and probe lag */
@@ -136,7 +137,7 @@ static int gen_large(const char *path, unsigned long rows, unsigned cycles)
   }
   setvbuf(f, buf, _IOFBF, sizeof buf);
   for (int c = 0; c < NCH; c++)
-    probe_init(&pr[c], fp[c], -8.0, 5.0, 1500.0, 500.0);
+    probe_init(&pr[c], fp[c], -8.0, 5.0, 500.0);
   fputs("time_s,T1 (C),T2 (C),T3 (C),T4 (C)\n", f);
   for (unsigned long i = 0; i < rows; i++) {
     double t = (double)i * dt;
@@ -194,7 +195,7 @@ static int gen_batch(const char *dir, unsigned runs, unsigned samples)
       fclose(sheet);
       return 4;
     }
-    probe_init(&p, fp, -6.0, 3.0, 400.0, 150.0);
+    probe_init(&p, fp, -6.0, 3.0, 150.0);
     probe_cool(&p);
     fputs("time_s,T (C)\n", f);
     for (unsigned i = 0; i < samples; i++)
