@@ -364,6 +364,14 @@ int series_fit(struct ff_series *s, const struct ff_sheet *sh,
         snprintf(sg->solute, sizeof sg->solute, "%s", row->solute);
         snprintf(sg->solvent, sizeof sg->solvent, "%s", r->solvent->name);
       }
+      if (sg->particles_known && r->particles_known
+          && (r->particles.nu != sg->particles.nu
+              || r->particles.z_plus != sg->particles.z_plus)
+          && strstr(sg->particles_how, "runs disagree") == NULL) {
+        size_t used = strlen(sg->particles_how);
+        snprintf(sg->particles_how + used, sizeof sg->particles_how - used,
+                 "; runs disagree, the first run's count is used");
+      }
       if (!sg->particles_known && r->particles_known) {
         sg->particles = r->particles;
         sg->particles_known = 1;

@@ -289,7 +289,7 @@ static void print_solute(const struct ff_series_solute *g)
          g->n, g->n == 1 ? "" : "s",
          g->particles_known ? (snprintf(a, sizeof a, "%u", g->particles.nu),
                                a) : "unknown", g->particles_how);
-  if (g->a_phi > 0)
+  if (g->a_phi > 0 && g->particles_known && g->particles.nu >= 2)
     printf("; A_phi %.4f at %.3f C", g->a_phi, g->mean_tf_c);
   printf("\n");
   if (g->status != FF_OK) {
