@@ -534,6 +534,29 @@ static double max_of(size_t n, const double *v)
 
 /* -------------------------------------------------------------- solute */
 
+/* The limit of a model as the key shows it; "" when it has none. */
+static void limit_text(const struct ff_plot_model *md, char *key, size_t n)
+{
+  if (isfinite(md->i_limit) && isfinite(md->u_i_limit))
+    snprintf(key, n, "i(0) = %.3f ± %.3f", md->i_limit, md->u_i_limit);
+  else if (isfinite(md->i_limit))
+    snprintf(key, n, "i(0) = %.3f", md->i_limit);
+  else
+    key[0] = '\0';
+}
+
+/* Short names share the key line with the limit; a long one gets a
+ * second line (see ff_plot_add_solute). */
+static int model_key_lines(const struct ff_plot_model *md)
+{
+  char key[KEY_MAX];
+
+  limit_text(md, key, sizeof key);
+  return key[0] != '\0' &&
+         strlen(md->name != NULL ? md->name : "model") + strlen(key) > 28
+           ? 2 : 1;
+}
+
 int ff_plot_add_solute(struct ff_plot_set *s,
                        const struct ff_plot_solute_fig *f, struct ff_diag *d)
 {
@@ -637,8 +660,20 @@ int ff_plot_add_solute(struct ff_plot_set *s,
   if (has_dep && isfinite(f->ideal_slope_k_kg_mol))
     range_add(&rd, f->ideal_slope_k_kg_mol * mmax * 1.05);
 
-  script_begin(gp.f, s, stem, "van 't Hoff factor against concentration",
-               f->title, 17.0, has_res ? 10.5 : 9.0);
+  /* The key of panel (a) sits below panel (c), in about 0.31 of the
+   * height at 0.5 cm a line: a taller figure when many models need it. */
+  {
+    double lines = 1.0 + (any_band ? 1.0 : 0.0), h;
+
+    for (m = 0; m < f->n_models; m++)
+      if (i_curve[m] >= 0)
+        lines += model_key_lines(&f->models[m]);
+    h = has_res ? 10.5 : 9.0;
+    if (has_dep && lines * 0.5 / 0.31 > h)
+      h = ceil(lines * 0.5 / 0.31);
+    script_begin(gp.f, s, stem, "van 't Hoff factor against concentration",
+                 f->title, 17.0, h);
+  }
   fprintf(gp.f, "# ---- this solute ----\ntitle_text = %s\n",
           q(f->title, buf));
   var(gp.f, "x_max", isfinite(xmax) ? 1.05 * xmax : NAN,
@@ -654,9 +689,9 @@ int ff_plot_add_solute(struct ff_plot_set *s,
   /* The key of panel (a) holds long model names and limits: it gets its
    * own place (bottom right, or right), never on top of the data. */
   fprintf(gp.f, "  set multiplot title title_text noenhanced\n"
-                "  set lmargin at screen 0.10\n"
+                "  set lmargin at screen 0.12\n"
                 "  set rmargin at screen %s\n"
-                "  set tmargin at screen 0.86\n"
+                "  set tmargin at screen 0.84\n"
                 "  set bmargin at screen %s\n"
                 "  set xrange [-0.03 * x_max:x_max]\n"
                 "  set xtics x_tic\n",
@@ -668,7 +703,7 @@ int ff_plot_add_solute(struct ff_plot_set *s,
   fprintf(gp.f, "  set ylabel \"van 't Hoff factor {/:Italic i}\"\n"
           "  set title \"(a) van 't Hoff factor\"\n"
           "  set key at screen %s left top vertical Left reverse "
-          "noenhanced\n", has_dep ? "0.58, screen 0.32" : "0.62, screen 0.84");
+          "noenhanced maxrows 40\n", has_dep ? "0.56, screen 0.33" : "0.62, screen 0.84");
   yrange_with_room(gp.f, "y", ri, 0.08);
   c.f = gp.f;
   c.n = 0;
@@ -682,24 +717,25 @@ int ff_plot_add_solute(struct ff_plot_set *s,
   for (m = 0; m < f->n_models; m++) {
     const struct ff_plot_model *md = &f->models[m];
 
-    if (isfinite(md->i_limit) && isfinite(md->u_i_limit))
-      snprintf(key, sizeof key, "i(0) = %.3f ± %.3f", md->i_limit,
-               md->u_i_limit);
-    else if (isfinite(md->i_limit))
-      snprintf(key, sizeof key, "i(0) = %.3f", md->i_limit);
-    else
-      key[0] = '\0';
+    limit_text(md, key, sizeof key);
     if (i_curve[m] >= 0) {
+      const char *mname = md->name != NULL ? md->name : "model";
+      /* Short names share the line with the limit; a long one gets a
+       * second line without a sample (gnuplot overlaps two-line entries). */
+      int one_line = key[0] != '\0' && model_key_lines(md) == 1;
+      char line[KEY_MAX + 8];
+
+      if (one_line) {
+        snprintf(line, sizeof line, "%s, %s", mname, key);
+        key[0] = '\0';
+      } else {
+        snprintf(line, sizeof line, "%s", mname);
+      }
       clause(&c, "'%s.dat' index %d using 1:2 with lines lt %zu lw %s "
                  "dt %s title %s", stem, i_curve[m], m % 6 + 1,
              m == f->preferred ? "2.5" : "1.5",
-             m == f->preferred ? "1" : "2",
-             q(md->name != NULL ? md->name : "model", buf));
-      /* gnuplot overlaps two-line key entries: the limit gets its own
-       * line without a sample. */
+             m == f->preferred ? "1" : "2", q(line, buf));
       if (key[0] != '\0') {
-        char line[KEY_MAX + 8];
-
         snprintf(line, sizeof line, "    %s", key);
         clause(&c, "keyentry with lines lt nodraw title %s", q(line, buf));
       }
@@ -740,7 +776,7 @@ int ff_plot_add_solute(struct ff_plot_set *s,
     fprintf(gp.f, "  set format x '%%g'\n"
           "  set lmargin at screen 0.64\n"
           "  set rmargin at screen 0.97\n"
-          "  set tmargin at screen 0.86\n"
+          "  set tmargin at screen 0.84\n"
           "  set bmargin at screen %s\n"
           "  set xrange [0:m_max]\n"
           "  set xtics m_tic\n"
@@ -919,6 +955,27 @@ static int overview_block(struct dat *b, const struct ff_plot_overview_fig *f,
   return gr->blk;
 }
 
+/* s cut to max_chars UTF-8 characters plus "…" when longer, into out. */
+static void shorten(const char *s, size_t max_chars, char *out, size_t n)
+{
+  size_t bytes = 0, chars = 0;
+
+  if (s == NULL)
+    s = "";
+  while (s[bytes] != '\0') {
+    if (((unsigned char)s[bytes] & 0xC0) != 0x80) {
+      if (chars == max_chars)
+        break;
+      chars++;
+    }
+    bytes++;
+  }
+  if (s[bytes] == '\0')
+    snprintf(out, n, "%s", s);
+  else
+    snprintf(out, n, "%.*s…", (int)bytes, s);
+}
+
 /* Tick labels "('name' 1, 'name2' 2, ...)" for run or solute names. */
 static void tic_labels(FILE *f, const char *axis, size_t n,
                        const char *(*name_of)(const void *, size_t),
@@ -926,13 +983,15 @@ static void tic_labels(FILE *f, const char *axis, size_t n,
 {
   size_t k;
   int first = 1;
+  char shortened[64];
 
   fprintf(f, "  set %stics (", axis);
   for (k = 0; k < n; k++) {
     if (k % every != 0)
       continue;
-    /* Long ids would run off the figure: cut at 14 characters. */
-    ff_plot_quote(name_of(ctx, k), buf, 18);
+    /* Long ids would run off the figure: 12 characters and an ellipsis. */
+    shorten(name_of(ctx, k), 12, shortened, sizeof shortened);
+    ff_plot_quote(shortened, buf, QMAX);
     fprintf(f, "%s%s %zu", first ? "" : ", ", buf, k + 1);
     first = 0;
   }
@@ -1001,7 +1060,7 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
   var(gp, "sqrt_m_tic", nice_step(smax > 0.0 ? 1.05 * smax : 1.0, 5), NULL);
   loop_begin(gp, stem);
   fputs("  set multiplot layout 2,2 title title_text noenhanced "
-        "margins 0.12, 0.97, 0.19, 0.89 spacing 0.12, 0.17\n", gp);
+        "margins 0.12, 0.97, 0.21, 0.89 spacing 0.12, 0.16\n", gp);
 
   /* (a) depression against molality, ideal lines dashed. */
   fputs("  set title '(a) depression against molality'\n"
@@ -1073,12 +1132,12 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
 
   /* (d) limiting i per solute with its 95 % interval, nu for reference. */
   fputs("  set title '(d) limit at infinite dilution'\n"
-        "  set xlabel 'solute'\n"
+        "  unset xlabel\n"
         "  set ylabel '{/:Italic i} at {/:Italic m} → 0'\n"
         "  set key inside top right Left reverse enhanced\n", gp);
   if (i_lim >= 0) {
     fprintf(gp, "  set xrange [0.5:%zu.5]\n", f->n_limits);
-    fputs("  set xtics noenhanced\n", gp);
+    fputs("  set xtics rotate by 90 right noenhanced\n", gp);
     tic_labels(gp, "x", f->n_limits, limit_name, f, 1, buf);
     yrange_with_room(gp, "y", rd, 0.45);
     clause(&c, "'%s.dat' index %d using 1:2:3:4 with yerrorbars lc rgb "
@@ -1092,7 +1151,8 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
     clause(&c, "NaN notitle");
   }
   clauses_end(&c);
-  fputs("  unset label 1\n  set xtics autofreq\n  set ytics autofreq\n", gp);
+  fputs("  unset label 1\n  set xtics norotate enhanced autofreq\n"
+        "  set ytics autofreq\n", gp);
   loop_end(gp);
 }
 
@@ -1168,7 +1228,7 @@ int ff_plot_add_overview(struct ff_plot_set *s,
     /* Only the solute number must be finite, so row k is limit k, as
      * panel (b)'s "every ::k::k" assumes. */
   }
-  script_begin(gp.f, s, stem, "overview of a series", f->title, 17.0, 16.0);
+  script_begin(gp.f, s, stem, "overview of a series", f->title, 17.0, 16.5);
   overview_script(gp.f, f, stem, gr, ng, i_lim, buf);
   st = finish(s, stem, &gp, &db, d);
 out:

@@ -508,8 +508,8 @@ Test(plot, solute_unknown_overview_scripts_are_escaped)
   cr_assert_not_null(text);
   expect_no_live_specials(text, "overview script");
   cr_expect(strstr(text, "title_text = 'x system(''id'') (at)m'") != NULL);
-  cr_expect(strstr(text, "'x system(''id'''") != NULL,
-            "run id cut to 14 characters in the tick labels");
+  cr_expect(strstr(text, "'x system(''id…' 4") != NULL,
+            "run id cut to 12 characters and an ellipsis in the tick labels");
   free(text);
   text = slurp(dir, "overview.dat", NULL);
   cr_assert_not_null(text);
