@@ -17,6 +17,9 @@
 
 /* Fewest points a fit is tried on. */
 #define MIN_FIT_POINTS 5
+/* Fewest points of a Newton fit: three parameters and three to spare
+ * (coarse sampling, 10 s, leaves few on a short liquid branch). */
+#define NEWTON_MIN_POINTS 6
 /* A quadratic term is kept only when this many standard errors from 0. */
 #define QUAD_SIGNIFICANCE 3.0
 /* Frozen fractions above this are not used by the model: the 1/(1 - x) law
@@ -135,7 +138,7 @@ int dd_newton(const struct dctx *c, size_t i0, size_t i1,
   gsl_vector_view xv;
   int info, st, ret = -1;
 
-  if (n < 3 * MIN_FIT_POINTS)
+  if (n < NEWTON_MIN_POINTS)
     return -1;
   /* Starting values from three averaged points at equal spacing: for an
    * exponential, (y1 - y2) / (y2 - y3) = exp(k h). */
