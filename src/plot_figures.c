@@ -881,11 +881,17 @@ int ff_plot_add_unknown(struct ff_plot_set *s,
     clause(&c, "'%s.dat' index %d using 1:2 with lines lc rgb col_blue lw 2 "
                "title 'extrapolation'", stem, i_fit);
   if (i_m0 >= 0) {
-    if (isfinite(f->u_m0_g_mol))
-      snprintf(key, sizeof key, "at zero: %.4g ± %.2g g/mol", f->m0_g_mol,
-               f->u_m0_g_mol);
-    else
+    if (isfinite(f->u_m0_g_mol) && f->u_m0_g_mol > 0.0) {
+      /* two significant digits of u, the value to the same decimal */
+      int dec = 1 - (int)floor(log10(f->u_m0_g_mol));
+
+      if (dec < 0)
+        dec = 0;
+      snprintf(key, sizeof key, "at zero: %.*f ± %.*f g/mol", dec,
+               f->m0_g_mol, dec, f->u_m0_g_mol);
+    } else {
       snprintf(key, sizeof key, "at zero: %.4g g/mol", f->m0_g_mol);
+    }
     clause(&c, "'%s.dat' index %d using 1:2:3 with yerrorbars lc rgb "
                "col_red pt 5 ps 1.0 title %s", stem, i_m0, q(key, buf));
   }
