@@ -25,6 +25,8 @@ build=${BUILD:-$(dirname "$bin")}
 cc=${CC:-cc}
 large=$data/large-$rows.csv
 batch=$data/batch-$runs-$samples
+figruns=${BENCH_FIGURE_RUNS:-100}
+figbatch=$data/batch-$figruns-$samples
 gen=$build/bench/gencsv
 
 say() { printf '%s\n' "$*"; }
@@ -45,6 +47,12 @@ if [ ! -s "$batch/sheet.csv" ]; then
   say "generating $batch ($runs runs of $samples samples, synthetic) ..."
   rm -rf "$batch.tmp"
   "$gen" batch "$batch.tmp" "$runs" "$samples" && mv "$batch.tmp" "$batch" ||
+    die "generator failed"
+fi
+if [ ! -s "$figbatch/sheet.csv" ]; then
+  say "generating $figbatch ($figruns runs of $samples samples, synthetic) ..."
+  rm -rf "$figbatch.tmp"
+  "$gen" batch "$figbatch.tmp" "$figruns" "$samples" && mv "$figbatch.tmp" "$figbatch" ||
     die "generator failed"
 fi
 [ "$data_only" = 1 ] && exit 0
@@ -107,7 +115,7 @@ say "   $mb MB, $nrows rows x $cols columns; numeric data $numeric_mb MiB"
 
 # --- frostfit on the large file -------------------------------------------
 what="point"
-run_timed /dev/null "$bin" point "$large" --json
+run_timed "$data/.point.json" "$bin" point "$large" --json
 if [ "$rc" != 0 ]; then
   if placeholder; then
     say "   'frostfit point' is not built yet: measuring 'frostfit inspect' (import only) instead"
@@ -125,6 +133,11 @@ else
   ff_secs=$secs
   awk -v s="$secs" -v b="$bytes" -v r="$nrows" -v what="$what" 'BEGIN {
     printf "   frostfit %-8s %7.3f s  %7.1f MB/s  %6.2f M rows/s\n", what, s, b / 1e6 / s, r / 1e6 / s }'
+  if [ "$what" = point ] && command -v python3 > /dev/null; then
+    say "   frostfit found: $(python3 -c 'import json, sys
+d = json.load(open(sys.argv[1])); e = d.get("events", [])
+print(len(e), "freeze events,", sum(1 for x in e if x.get("trusted")), "trusted")' "$data/.point.json" 2>&1)"
+  fi
   if [ -n "$rss_kb" ]; then
     awk -v k="$rss_kb" -v r="$nrows" -v c="$cols" 'BEGIN {
       num = r * c * 8 / 1048576; rss = k / 1024
@@ -170,6 +183,22 @@ elif placeholder; then
   say "   'frostfit series' is not built yet: batch timing skipped"
 else
   say "   'frostfit series' failed (exit $rc): $(head -n 3 "$data/.stderr")"
+fi
+
+say ""
+say "== figures: $figbatch ($figruns runs, one figure each plus overviews)"
+figdir=$data/figures-out
+rm -rf "$figdir"
+run_timed "$data/.series.out" "$bin" series "$figbatch/sheet.csv" --figures "$figdir"
+if [ "$rc" = 0 ]; then
+  nfig=$(find "$figdir" -name '*.png' | wc -l)
+  awk -v s="$secs" -v n="$nfig" 'BEGIN {
+    printf "   frostfit series --figures  %7.3f s  for %d PNG figures (%.1f figures/s)\n", s, n, n / s }'
+  [ "$nfig" = 0 ] && say "   no PNG made: $(tail -n 2 "$data/.stderr")"
+elif placeholder; then
+  say "   'frostfit series' is not built yet: figure timing skipped"
+else
+  say "   'frostfit series --figures' failed (exit $rc): $(head -n 3 "$data/.stderr")"
 fi
 say ""
 say "(figures only; nothing here is a pass/fail test; machine: $(nproc) cores)"
