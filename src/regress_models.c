@@ -660,8 +660,13 @@ int ff_regress_solute(const struct ff_regress_input *in,
     double nn = (double)out->particles_nearest;
     out->particles_in_ci = out->particles_nearest >= 1 &&
                            pf->ci_limit[0] <= nn && nn <= pf->ci_limit[1];
-    out->particles_inferred = out->particles_in_ci ? out->particles_nearest
-                                                   : 0;
+    out->particles_by_ftest = !out->particles_in_ci
+                              && out->particles_nearest >= 1
+                              && out->particles_nearest == (long)in->p.nu
+                              && out->nu_test.done
+                              && !out->nu_test.reject_restricted;
+    out->particles_inferred = out->particles_in_ci || out->particles_by_ftest
+                              ? out->particles_nearest : 0;
     if (in->p.nu > 1) {
       struct ff_diag da = FF_DIAG_INIT;
       out->has_alpha = ff_regress_alpha(pf->i_limit, pf->u_i_limit,

@@ -202,7 +202,7 @@ static json_t *solute_json(const struct ff_series *s,
   ff_json_set_str(o, "criterion", ok && g->reg.has_preferred
                   ? g->reg.criterion : NULL);
   json_object_set_new(o, "particles_inferred",
-                      ok && g->reg.has_particles && g->reg.particles_in_ci
+                      ok && g->reg.has_particles && g->reg.particles_inferred
                       ? json_integer(g->reg.particles_inferred)
                       : json_null());
   json_object_set_new(o, "particles_nearest", ok && g->reg.has_particles
@@ -374,7 +374,7 @@ int ff_series_write_csv(const struct ff_series *s, FILE *f)
                 ? "yes" : "", 0)
          | num(f, g->particles_known ? (double)g->particles.nu : NAN, 0)
          | num(f, g->status == FF_OK && g->reg.has_particles
-                  && g->reg.particles_in_ci
+                  && g->reg.particles_inferred
                ? (double)g->reg.particles_inferred : NAN, 0)
          | text(f, g->status != FF_OK ? g->diag.msg
                 : fit->status != FF_OK ? fit->reason : fit->note, 1);

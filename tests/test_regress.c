@@ -764,3 +764,36 @@ Test(regress, monte_carlo_refuses_fixed_limit, .init = setup)
                                       1UL, &mc, &d), FF_EUNTRUSTED);
   cr_expect(strstr(d.msg, "fixed") != NULL, "%s", d.msg);
 }
+
+/* Model bias against a purely statistical interval: CaCl2 from 0.005 mol/kg
+ * (Pitzer-model values, REFERENCES.md sec. 3.1 [C]) with a precise run
+ * uncertainty. The free-nu DH limit lands near 3.027 and its interval can
+ * exclude 3; the F-test of nu fixed at the given particle count then
+ * decides. Whatever the interval says, the integer must be inferred only
+ * when the interval holds it or the F-test does not reject it. */
+Test(regress, particles_inferred_by_interval_or_ftest, .init = setup)
+{
+  struct salt s;
+  struct ff_regress_result r = FF_REGRESS_RESULT_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+
+  load_salt("CaCl2", &s);
+  for (size_t k = 0; k < s.n; k++)
+    s.u[k] = 0.002;   /* a careful run, chosen */
+  struct ff_regress_input in = salt_input(&s, 1);
+  cr_assert_eq(ff_regress_solute(&in, NULL, &r, &d), FF_OK, "%s", d.msg);
+  cr_assert(r.has_particles);
+  cr_expect_eq(r.particles_nearest, 3);
+  cr_assert(r.nu_test.done, "the nu-fixed F-test must run");
+  int want = r.particles_in_ci || !r.nu_test.reject_restricted;
+  cr_expect_eq(r.particles_inferred, want ? 3 : 0,
+               "in_ci %d, F p %.3g, inferred %ld", r.particles_in_ci,
+               r.nu_test.p, r.particles_inferred);
+  cr_expect_eq(r.particles_by_ftest, !r.particles_in_ci
+               && !r.nu_test.reject_restricted);
+  cr_log_info("CaCl2 0.005-0.1: DH limit %.4f [%.4f, %.4f], F p %.3g",
+              r.fit[FF_REGRESS_DEBYE_HUCKEL].i_limit,
+              r.fit[FF_REGRESS_DEBYE_HUCKEL].ci_limit[0],
+              r.fit[FF_REGRESS_DEBYE_HUCKEL].ci_limit[1], r.nu_test.p);
+  ff_regress_result_release(&r);
+}

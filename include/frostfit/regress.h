@@ -161,7 +161,13 @@ struct ff_regress_result {
   enum ff_regress_model particles_model;
   long particles_nearest;      /* nearest integer to i_limit */
   int particles_in_ci;         /* 1 when the CI contains it */
-  long particles_inferred;     /* = particles_nearest when in CI, else 0 */
+  /* 1 when the CI misses it but nu fixed at it (the given particle count)
+   * is not rejected by the F-test against nu free: the interval is purely
+   * statistical, and B m + C m^2 only approximates the higher terms, so a
+   * precise data set can exclude the true integer by model bias alone. */
+  int particles_by_ftest;
+  long particles_inferred;     /* = particles_nearest when in CI or
+                                  supported by the F-test, else 0 */
 
   /* Degree of dissociation (i_limit - 1)/(nu - 1), when nu > 1. */
   int has_alpha;

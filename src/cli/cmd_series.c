@@ -326,7 +326,13 @@ static void print_solute(const struct ff_series_solute *g)
   if (g->reg.has_preferred)
     printf("  preferred model: %s (smallest %s)\n",
            ff_regress_model_name(g->reg.preferred), g->reg.criterion);
-  if (g->reg.has_particles)
+  if (g->reg.has_particles && g->reg.particles_by_ftest)
+    printf("  particles: nearest integer %ld to the %s limit, outside its "
+           "interval, but fixing nu = %ld does not worsen the fit (F-test "
+           "p = %.2g) -> inferred\n", g->reg.particles_nearest,
+           ff_regress_model_name(g->reg.particles_model),
+           g->reg.particles_nearest, g->reg.nu_test.p);
+  else if (g->reg.has_particles)
     printf("  particles: nearest integer %ld to the %s limit, %s its "
            "interval%s\n", g->reg.particles_nearest,
            ff_regress_model_name(g->reg.particles_model),
@@ -334,7 +340,7 @@ static void print_solute(const struct ff_series_solute *g)
            g->reg.particles_in_ci ? " -> inferred" : " -> not inferred");
   /* alpha speaks of partial dissociation: shown when the limit is not
    * the full particle count. */
-  if (g->reg.has_alpha && g->reg.has_particles && !g->reg.particles_in_ci)
+  if (g->reg.has_alpha && g->reg.has_particles && !g->reg.particles_inferred)
     printf("  degree of dissociation alpha = %s\n",
            pm(a, sizeof a, g->reg.alpha, g->reg.u_alpha));
   if (g->has_mc)
