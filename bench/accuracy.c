@@ -16,7 +16,8 @@
 #include "frostfit/simulate.h"
 #include "frostfit/solvent.h"
 
-#define N_ROWS 8   /* auto + the six methods + a spare */
+/* Curves per grid point, each with its own seed (noise and dropouts). */
+#define N_SEEDS 3
 
 /* Errors collected for one band: per method, |Tf - truth| in K. */
 struct band {
@@ -186,7 +187,8 @@ int main(void)
       for (size_t in = 0; in < 4; in++)
         for (size_t is = 0; is < 4; is++)
           for (size_t il = 0; il < 3; il++)
-            for (size_t ir = 0; ir < 2; ir++) {
+            for (size_t ir = 0; ir < 2; ir++)
+              for (int rep = 0; rep < N_SEEDS; rep++) {
               struct ff_sim_params sp;
               struct band *bl[8];
               size_t nb = 0;
