@@ -18,12 +18,20 @@
  * Beckmann work, up to about 2.5 K in cryoscopes, REFERENCES.md 8). */
 #define SUPERCOOL_RAND_LO 0.3
 #define SUPERCOOL_RAND_HI 2.5
-/* Melting slows to zero as the last ice goes (ice surface vanishes); below
- * this frozen fraction the sample counts as ice-free. */
-#define MELT_SOFT_X 1e-6
-#define ICE_GONE_X 1e-9
+/* Growth and melting scale with the ice present, x / (x + ICE_SOFT_X), so
+ * melting fades as the last ice goes; nucleation therefore starts from a
+ * seed crystal of ICE_SEED_X. One smooth law for both signs keeps the
+ * (very stiff) freezing branch free of kinks for the integrator. Below
+ * ICE_GONE_X the sample counts as ice-free. */
+#define ICE_SOFT_X 1e-7
+#define ICE_SEED_X 1e-7
+#define ICE_GONE_X 1e-10
 /* Most samples in one record (guards against absurd parameter sets). */
 #define MAX_SAMPLES 20000000UL
+/* After nucleation the peak is searched on this finer grid for this long
+ * (recalescence takes well under a second at the default growth rate). */
+#define PEAK_STEP_S 0.01
+#define PEAK_WINDOW_S 5.0
 /* Integrator tolerances: the curve agrees with a 1e-12 run to a few uK,
  * far below any thermometer's resolution. */
 #define ODE_EPS_ABS 1e-9
@@ -124,21 +132,17 @@ static double t_eq(const struct model *m, double x)
 }
 
 /* dx/dt: ice grows (or melts) in proportion to the departure from the local
- * freezing point. Growth needs liquid (factor 1 - x) and speeds up as the
- * ice surface grows (factor 1 + x/x_a); melting fades as the ice vanishes. */
+ * freezing point, dx/dt = G (T_eq - T) (1 + x/x_a) (1 - x) x/(x + x_s):
+ * the ice surface grows with the ice (1 + x/x_a), freezing needs liquid
+ * (1 - x), and the rate fades as the last ice goes (x/(x + x_s)). */
 static double ice_rate(const struct model *m, double T, double x)
 {
-  double d, area;
+  double area;
 
-  if (!m->growth)
+  if (!m->growth || x <= 0.0 || x >= 1.0)
     return 0.0;
-  d = t_eq(m, x) - T;
-  area = m->xa > 0.0 ? 1.0 + (x > 0.0 ? x : 0.0) / m->xa : 1.0;
-  if (d > 0.0)
-    return x < 1.0 ? m->g * d * area * (1.0 - x) : 0.0;
-  if (x <= 0.0)
-    return 0.0;
-  return m->g * d * area * x / (x + MELT_SOFT_X);
+  area = m->xa > 0.0 ? 1.0 + x / m->xa : 1.0;
+  return m->g * (t_eq(m, x) - T) * area * (1.0 - x) * x / (x + ICE_SOFT_X);
 }
 
 static double bath_at(const struct model *m, double t)
@@ -200,6 +204,8 @@ struct sim {
   gsl_rng *rng_bath;     /* the same for the bath probe */
   double t, y[3];
   unsigned long k_next;  /* index of the next sample */
+  double fine_until;     /* follow the peak on a fine grid until then */
+  double peak;           /* highest sample temperature seen there */
   struct ff_sim_result *r;
   size_t cap;
   struct ff_diag *d;
@@ -255,11 +261,25 @@ static int record(struct sim *s)
 
 static int step_to(struct sim *s, double t1)
 {
+  double t0 = s->t, y0[3];
   int st;
 
-  if (t1 <= s->t)
+  /* An interval of rounding size (a fine step ending next to a sample
+   * time) is no interval: the stepper would fail on it. */
+  if (t1 - s->t <= 1e-9 * (1.0 + fabs(t1))) {
+    if (t1 > s->t)
+      s->t = t1;
     return FF_OK;
+  }
+  memcpy(y0, s->y, sizeof y0);
   st = gsl_odeiv2_driver_apply(s->drv, &s->t, t1, s->y);
+  if (st != GSL_SUCCESS) {
+    /* Once more from the same point with a fresh, small first step. */
+    s->t = t0;
+    memcpy(s->y, y0, sizeof y0);
+    gsl_odeiv2_driver_reset_hstart(s->drv, 1e-6);
+    st = gsl_odeiv2_driver_apply(s->drv, &s->t, t1, s->y);
+  }
   if (st != GSL_SUCCESS)
     return ff_diag_set(s->d, FF_EUNTRUSTED, NULL, "the integrator failed at "
                        "t = %.3f s: %s", s->t, gsl_strerror(st));
@@ -272,6 +292,24 @@ static double next_sample_t(const struct sim *s)
   return (double)s->k_next * s->p->dt_s;
 }
 
+/* step_to, but through the peak window in small steps, so the peak after
+ * recalescence is known between samples too. */
+static int advance(struct sim *s, double t1)
+{
+  int st;
+
+  while (s->t < s->fine_until && s->t < t1) {
+    double tn = fmin(fmin(s->t + PEAK_STEP_S, s->fine_until), t1);
+    if (t1 - tn < 0.5 * PEAK_STEP_S)
+      tn = t1;                   /* no sliver before the sample */
+    if ((st = step_to(s, tn)) != FF_OK)
+      return st;
+    if (s->y[0] > s->peak)
+      s->peak = s->y[0];
+  }
+  return step_to(s, t1);
+}
+
 /* Integrates to t_end, recording every sample time on the way (t_end itself
  * included when it falls on the grid). */
 static int run_until(struct sim *s, double t_end)
@@ -279,12 +317,12 @@ static int run_until(struct sim *s, double t_end)
   int st;
 
   while (next_sample_t(s) <= t_end) {
-    if ((st = step_to(s, next_sample_t(s))) != FF_OK ||
+    if ((st = advance(s, next_sample_t(s))) != FF_OK ||
         (st = record(s)) != FF_OK)
       return st;
     s->k_next++;
   }
-  return step_to(s, t_end);
+  return advance(s, t_end);
 }
 
 /* The physics changed (bath switched, crystal appeared, ice gone): a
@@ -379,13 +417,16 @@ static int cool_and_freeze(struct sim *s, unsigned c)
     if ((st = run_until(s, t_n)) != FF_OK)
       return st;
     /* The closed form is exact; the integrated state agrees to ~1e-6 K,
-     * so snap it, and the reported supercooling is the one asked for. */
-    s->y[0] = tf_true - u;
+     * so snap it, and the reported supercooling is the one asked for. The
+     * seed crystal's latent heat warms the sample by L x_seed / cp. */
+    s->y[0] = tf_true - u + s->m.lat * ICE_SEED_X / s->m.cpl;
+    s->y[1] = ICE_SEED_X;
     r->nucleation_t_s[c] = t_n;
     r->supercool_k[c] = u;
     s->m.growth = 1;
     event(s);
-    r->peak_c[c] = s->y[0];
+    s->peak = s->y[0];
+    s->fine_until = t_n + PEAK_WINDOW_S;
   } else {
     /* The bath cannot take the liquid that far down: no freeze this cycle,
      * the curve just settles towards the bath. */
@@ -398,10 +439,12 @@ static int cool_and_freeze(struct sim *s, unsigned c)
     size_t i0 = r->n;
     if ((st = run_until(s, t_n + p->freeze_s)) != FF_OK)
       return st;
-    if (s->m.growth)
+    if (s->m.growth) {
+      r->peak_c[c] = s->peak;
       for (size_t i = i0; i < r->n; i++)
         if (r->sample_c[i] > r->peak_c[c])
           r->peak_c[c] = r->sample_c[i];
+    }
   }
   r->freeze_end_t_s[c] = s->t;
   r->n_cycles = c + 1;
