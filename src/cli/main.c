@@ -113,13 +113,16 @@ int ff_cli_finish(int status)
 
 /*
  * Data files are found, in order: $FROSTFIT_DATADIR; datasets/ beside the
- * binary or one or two levels up (a build tree); the installed share folder.
+ * binary or one or two levels up (a build tree); ../share/frostfit/datasets
+ * from the binary (an installed tree, wherever DESTDIR put it); the share
+ * folder compiled in.
  */
 const char *ff_cli_datadir(void)
 {
   static char dir[PATH_MAX];
   static const char *const rel[] = { "/datasets", "/../datasets",
-                                     "/../../datasets" };
+                                     "/../../datasets",
+                                     "/../share/frostfit/datasets" };
   const char *env = getenv("FROSTFIT_DATADIR");
   char exe[PATH_MAX];
   ssize_t n;
