@@ -1014,6 +1014,21 @@ static const char *limit_name(const void *ctx, size_t k)
   return ((const struct ff_plot_overview_fig *)ctx)->limits[k].solute;
 }
 
+/*
+ * A panel with nothing to draw says so instead: fixed ranges, no tick
+ * labels, a centred note (gnuplot refuses to autoscale an empty plot).
+ */
+static void empty_panel(struct clauses *c, const char *note, char *buf)
+{
+  fprintf(c->f, "  set xrange [0:1]\n  set yrange [0:1]\n"
+                "  set format xy ''\n"
+                "  set label 1 %s at graph 0.5, graph 0.5 center\n",
+          ff_plot_quote(note, buf, QMAX));
+  clause(c, "NaN notitle");
+  clauses_end(c);
+  fputs("  unset label 1\n  set format xy '%g'\n", c->f);
+}
+
 static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
                             const char *stem, const struct group *gr,
                             size_t ng, int i_lim, char *buf)
@@ -1090,8 +1105,9 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
     clause(&c, "keyentry with lines lc rgb col_grey dt 2 title "
                "'ideal (Kf ν m)'");
   if (c.n == 0)
-    clause(&c, "NaN notitle");
-  clauses_end(&c);
+    empty_panel(&c, "no data for this panel", buf);
+  else
+    clauses_end(&c);
 
   /* (b) i against sqrt(m); limits at m = 0 from panel (d). */
   fputs("  set title \"(b) van 't Hoff factor\"\n"
@@ -1114,8 +1130,9 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
                    "with yerrorbars lt %d pt 4 ps 1.2 notitle", stem, i_lim,
                k, k, gr[g].lt);
   if (c.n == 0)
-    clause(&c, "NaN notitle");
-  clauses_end(&c);
+    empty_panel(&c, "no data for this panel", buf);
+  else
+    clauses_end(&c);
 
   /* (c) freezing point of every run. */
   fprintf(gp, "  set title '(c) freezing point per run (black: blank)'\n"
@@ -1132,8 +1149,9 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
       clause(&c, "'%s.dat' index %d using 1:2:3 with yerrorbars lt %d "
                  "notitle", stem, gr[g].blk, gr[g].lt);
   if (c.n == 0)
-    clause(&c, "NaN notitle");
-  clauses_end(&c);
+    empty_panel(&c, "no data for this panel", buf);
+  else
+    clauses_end(&c);
   fputs("  set xtics norotate enhanced autofreq\n", gp);
 
   /* (d) limiting i per solute with its 95 % interval, nu for reference. */
@@ -1150,15 +1168,11 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
                "col_black pt 7 title 'fit, 95 %%'", stem, i_lim);
     clause(&c, "'' index %d using 1:5 with points lc rgb col_grey pt 6 "
                "ps 1.3 title 'ν'", i_lim);
+    clauses_end(&c);
   } else {
-    fputs("  set xrange [0:1]\n  set yrange [0:1]\n  unset xtics\n"
-          "  unset ytics\n  set label 1 'no fitted solute' at graph 0.5, "
-          "graph 0.5 center\n", gp);
-    clause(&c, "NaN notitle");
+    empty_panel(&c, "no fitted solute", buf);
   }
-  clauses_end(&c);
-  fputs("  unset label 1\n  set xtics norotate enhanced autofreq\n"
-        "  set ytics autofreq\n", gp);
+  fputs("  set xtics norotate enhanced autofreq\n", gp);
   loop_end(gp);
 }
 

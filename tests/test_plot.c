@@ -858,3 +858,64 @@ Test(plot, detected_event_maps_fits_and_result)
   free(t);
   free(y);
 }
+
+/* Optional parts left out: every script must still run without a word on
+ * stderr (gnuplot warns about empty plots, missing ranges, ...). */
+Test(plot, sparse_descriptions_render_cleanly)
+{
+  char dir[64], err[2048];
+  struct ff_diag d = FF_DIAG_INIT;
+  struct ff_plot_opts o = FF_PLOT_OPTS_DEFAULT;
+  struct ff_plot_report r;
+  struct event_data ev;
+  struct solute_data sd;
+  struct unknown_data ud;
+  struct ff_plot_event_fig ef = make_event(&ev, "bare_event", "no fits");
+  struct ff_plot_solute_fig sf = make_solute(&sd, "bare_solute");
+  struct ff_plot_unknown_fig uf = make_unknown(&ud, "bare_unknown");
+  struct ff_plot_run runs[2] = {
+    { "b1", NULL, 0.004, 0.001, NAN, NAN, NAN, NAN, NAN },
+    { "b2", "", -0.002, NAN, NAN, NAN, NAN, NAN, NAN } };
+  struct ff_plot_overview_fig of = { "bare_overview", "blanks only", runs, 2,
+                                     NULL, 0 };
+  struct ff_plot_set *s;
+  static const char *const stems[] = { "bare_event", "bare_solute",
+                                       "bare_unknown", "bare_overview" };
+  size_t k;
+
+  if (!have_gnuplot())
+    cr_skip_test("gnuplot is not installed");
+  ef.liquid.n = ef.freezing.n = ef.extrap.n = 0;
+  ef.t_nucleation_s = NAN;
+  ef.u_freezing_point_k = NAN;
+  ef.t_read_s = 120.0;
+  ef.method = NULL;
+  sf.n_models = 0;
+  sf.u_i = NULL;
+  sf.resid_i = NULL;
+  sf.m_mol_kg = NULL;
+  uf.fit.n = 0;
+  uf.u_m_g_mol = NULL;
+  uf.m0_g_mol = NAN;
+  make_tmpdir(dir, sizeof dir);
+  o.formats = FF_PLOT_SVG;
+  s = ff_plot_set_new(dir, &o, &d);
+  cr_assert_not_null(s);
+  cr_assert_eq(ff_plot_add_event(s, &ef, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(ff_plot_add_solute(s, &sf, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(ff_plot_add_unknown(s, &uf, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(ff_plot_add_overview(s, &of, &d), FF_OK, "%s", d.msg);
+  cr_expect_eq(ff_plot_render(s, &r, &d), FF_OK, "%s\n%s", d.msg, r.errors);
+  cr_expect_str_eq(r.errors, "", "gnuplot said: %s", r.errors);
+  for (k = 0; k < 4; k++) {
+    char name[64];
+
+    snprintf(name, sizeof name, "%s.svg", stems[k]);
+    expect_svg(dir, name);
+    snprintf(name, sizeof name, "%s.gp", stems[k]);
+    cr_expect_eq(rerun_alone(dir, name, err, sizeof err), 0, "%s", err);
+    cr_expect_str_eq(err, "", "%s: %s", name, err);
+  }
+  ff_plot_set_free(s);
+  rm_tree(dir);
+}
