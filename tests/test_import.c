@@ -111,6 +111,22 @@ Test(import, bom_tab_crlf_kelvin)
   ff_dataset_free(ds);
 }
 
+Test(import, tab_decimal_comma_exponents_comment_inside)
+{
+  struct ff_dataset *ds = load(DIR "tab_decimal_comma.tsv", NULL);
+
+  cr_assert_eq(ds->dialect.delimiter, '\t');
+  cr_assert_eq(ds->dialect.decimal, ',');
+  cr_assert_eq(ds->dialect.comment_lines, 1);
+  cr_assert_eq(ds->col[0].time_format, FF_TIME_MINUTES);
+  cr_assert_eq(ds->n, 3);
+  near(ds->t_s[1], 15.0, EXACT, "0,25 min");
+  near(ds->ch[0].temp_c[0], 21.5, EXACT, "2,15E+01");
+  near(ds->ch[0].temp_c[1], 18.75, EXACT, "1,875E+01");
+  near(ds->ch[0].temp_c[2], -1.25, EXACT, "after the '#' line");
+  ff_dataset_free(ds);
+}
+
 Test(import, lone_cr_hours_fahrenheit)
 {
   struct ff_dataset *ds = load(DIR "cr_hours_fahrenheit.csv", NULL);

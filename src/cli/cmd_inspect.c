@@ -144,11 +144,11 @@ static void print_text(const struct ff_dataset *ds)
   if (st->rows_all_missing)
     printf(", %zu with no temperature", st->rows_all_missing);
   printf("\n");
-  printf("time: %.6g s span", ds->t_s[ds->n - 1]);
+  printf("time: %.10g s span", ds->t_s[ds->n - 1]);
   if (ds->t0_iso[0] != '\0')
     printf(" from %s", ds->t0_iso);
   if (isfinite(dt))
-    printf(", median interval %.6g s", dt);
+    printf(", median interval %.10g s", dt);
   if (st->midnight_wraps > 0)
     printf(", passes midnight %zu time%s", st->midnight_wraps,
            st->midnight_wraps == 1 ? "" : "s");

@@ -112,6 +112,10 @@ printf '  Time (s)   T1 (C)   T2 (C)\n  0   1.5   2.5\n  1   1.25   2.25\n' > wh
 # Some rows end with a surplus separator (an empty last column), some not.
 printf 'time (s),T (C)\n0,1.5,\n1,1.25\n2,1.0,\n' > trailing_separator.csv
 
+# Tab separator with decimal comma, exponent notation, a '#' line inside.
+printf 'Zeit [min]\tTemp (\302\260C)\n0\t2,15E+01\n0,25\t1,875E+01\n# probe moved\n0,5\t-1,25\n' \
+  > tab_decimal_comma.tsv
+
 # Bad input, one problem each.
 : > bad_empty.csv
 printf 'time (s),T (C)\n' > bad_header_only.csv
