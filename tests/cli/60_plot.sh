@@ -81,3 +81,29 @@ CASE="series --format unknown"
 run "$FF" series "$P/in/sheet.csv" --figures "$P/x" --format png,gif
 expect_rc 1
 expect_err "gif"
+
+# 'point --figures' (runs once the point command has the option).
+if "$FF" point --help 2>/dev/null | grep -q -- '--figures'; then
+  CASE="point --figures --format svg,pdf"
+  run "$FF" point "$ROOT/tests/data/series/water.csv" --figures "$P/pt" \
+    --format svg,pdf
+  expect_rc 0
+  expect_err "figures in $P/pt"
+  n=0
+  for f in "$P"/pt/*.gp; do
+    [ "$(basename "$f")" = render.gp ] && continue
+    n=$((n + 1))
+    s=${f%.gp}
+    if [ -s "$s.svg" ] && [ "$(head -c 5 "$s.pdf")" = "%PDF-" ]; then ok
+    else bad "$(basename "$f") not rendered"; fi
+  done
+  if [ "$n" -ge 1 ]; then ok; else bad "no event figure"; fi
+  CASE="point figure scripts re-run alone"
+  run sh -c 'cd "$1" && gnuplot render.gp' sh "$P/pt"
+  expect_rc 0
+  if [ -s "$ERR" ]; then bad "gnuplot wrote on stderr"; else ok; fi
+  CASE="point --format unknown"
+  run "$FF" point "$ROOT/tests/data/series/water.csv" --figures "$P/pt2" \
+    --format tiff
+  expect_rc 1; expect_err "tiff"
+fi
