@@ -15,7 +15,7 @@
 #include <gsl/gsl_roots.h>
 
 /* Random supercooling range, K (common practice, no source: 0.3-1 K in
- * Beckmann work, up to about 2.5 K in cryoscopes, REFERENCES.md 8). */
+ * Beckmann work; milk cryoscopes supercool about 2.5 K, GB 5413.38-2016). */
 #define SUPERCOOL_RAND_LO 0.3
 #define SUPERCOOL_RAND_HI 2.5
 /* Growth and melting scale with the ice present, x / (x + ICE_SOFT_X), so
@@ -44,7 +44,7 @@ void ff_sim_water(struct ff_solvent *s)
   snprintf(s->aliases, sizeof s->aliases, "h2o");
   s->tf_c = 0.0;               /* ice point */
   s->kf_k_kg_mol = 1.860;      /* USP <785> */
-  s->dh_fus_j_mol = 6006.77;   /* IAPWS-95/06, computed (REFERENCES 1.1) */
+  s->dh_fus_j_mol = 6006.77;   /* IAPWS-95/06 via python3-iapws, computed */
   s->m_g_mol = 18.015268;      /* IAPWS value */
   s->cp_liq_j_g_k = 4.2194;    /* IAPWS-95 at 273.15 K, computed */
   s->cp_sol_j_g_k = 2.0967;    /* IAPWS-06 at 273.15 K, computed */

@@ -433,7 +433,9 @@ double ff_solvent_kf_calc(const struct ff_solvent *s)
 double ff_solvent_frozen_per_k(const struct ff_solvent *s)
 {
   /* Heat to warm the sample back by 1 K equals the latent heat of the ice
-   * that forms: f = cp / L per K of supercooling (REFERENCES 7.1). */
+   * that forms: f = cp / L per K of supercooling (the classic 1/80 rule for
+   * water, Proc. Soc. Exp. Biol. Med. vol. 28,
+   * doi 10.3181/00379727-28-5588). */
   return s->cp_liq_j_g_k / (s->dh_fus_j_mol / s->m_g_mol);
 }
 

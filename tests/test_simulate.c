@@ -21,8 +21,8 @@ static void setup(void)
 TestSuite(simulate, .init = setup);
 
 /* Water as used by the defaults: Kf 1.860 (USP <785>); cp 4.2194 J/(g K)
- * and dH_fus 6006.77 J/mol (IAPWS-95/06 via python3-iapws, computed; see
- * REFERENCES.md 1.1). L = dH/M = 333.43 J/g. */
+ * and dH_fus 6006.77 J/mol (IAPWS-95/06 via python3-iapws, computed).
+ * L = dH/M = 333.43 J/g. */
 #define WATER_KF 1.860
 #define WATER_F (4.2194 / (6006.77 / 18.015268))   /* 0.01266 per K */
 
@@ -262,7 +262,7 @@ Test(simulate, peak_deficit_matches_cp_over_l_rule_in_water)
 }
 
 /* Cyclohexane: L is small (31.8 J/g), so 1 K of supercooling freezes about
- * 6 % of the solvent (cp/L 0.058, REFERENCES.md 7.1) and the peak deficit is
+ * 6 % of the solvent (cp/L 0.058 from the row's cp and dH_fus, both from memory) and the peak deficit is
  * large. */
 Test(simulate, cyclohexane_freezes_six_percent_per_kelvin)
 {

@@ -37,7 +37,8 @@ static const char *temp_csv(const char *text)
   return path;
 }
 
-/* REFERENCES.md 1.1: Kf = R Tf^2 M / dH_fus with R = 8.314462618 (CODATA
+/* Kf = R Tf^2 M / dH_fus (the relation of the CRC Handbook 'Cryoscopic
+ * Constants' table) with R = 8.314462618 (CODATA
  * 2018), Tf = 273.15 K, M = 18.015268 g/mol, dH_fus = 6006.77 J/mol
  * (IAPWS-95/06 via python3-iapws, computed) gives 1.86053. Handbook values:
  * 1.86 (CRC Handbook 'Cryoscopic Constants' table), 1.860 (USP <785>). */
@@ -59,8 +60,8 @@ Test(solvent, water_kf_from_first_principles_matches_handbook)
   ff_solvent_table_release(&t);
 }
 
-/* REFERENCES.md 7.1: f = cp/L = 4.2194 / 333.43 = 0.01266 per K for water
- * (IAPWS values, computed); the classic rule is 1/80 = 0.0125 per K (Proc.
+/* f = cp/L = 4.2194 / 333.43 = 0.01266 per K for water (IAPWS-95/06 via
+ * python3-iapws, computed); the classic rule is 1/80 = 0.0125 per K (Proc.
  * Soc. Exp. Biol. Med. vol. 28, doi 10.3181/00379727-28-5588). */
 Test(solvent, water_frozen_fraction_per_kelvin_near_one_eightieth)
 {
@@ -72,7 +73,7 @@ Test(solvent, water_frozen_fraction_per_kelvin_near_one_eightieth)
   w = ff_solvent_find(&t, "H2O");      /* alias, other case */
   cr_assert_not_null(w);
   f = ff_solvent_frozen_per_k(w);
-  /* REFERENCES rounds to 5 decimals (4.2194 / 333.4265 = 0.012655). */
+  /* Check value given to 5 decimals (4.2194 / 333.4265 = 0.012655). */
   cr_assert_float_eq(f, 0.01266, 1e-5, "cp/L %.6f", f);
   /* The 1/80 rule used 80 cal/g and s = 1 cal/(g K): within 2 %. */
   cr_assert_float_eq(f, 1.0 / 80.0, 0.02 / 80.0);
@@ -81,7 +82,7 @@ Test(solvent, water_frozen_fraction_per_kelvin_near_one_eightieth)
 
 /* CRC Handbook 'Cryoscopic Constants' table: cyclohexane Kf 20.8; the row's
  * own Tf 6.54 C and dH_fus 2.68 kJ/mol (from memory) give 20.4, and
- * REFERENCES.md 7.1 gives cp/L about 0.058 per K. */
+ * cp/L is about 0.058 per K (cp and dH_fus from memory). */
 Test(solvent, cyclohexane_kf_calc_within_a_few_percent_of_crc)
 {
   struct ff_solvent_table t = FF_SOLVENT_TABLE_INIT;
@@ -98,9 +99,11 @@ Test(solvent, cyclohexane_kf_calc_within_a_few_percent_of_crc)
   ff_solvent_table_release(&t);
 }
 
-/* The brief's list: every row has its constants, a hazard and a source, and
- * the tabulated Kf agrees with R Tf^2 M / dH within 20 % (lauric acid's
- * teaching value 3.9 is the known outlier at +18 %, REFERENCES.md 1.2). */
+/* The twelve solvents the project promises: every row has its constants,
+ * a hazard and a source, and the tabulated Kf agrees with R Tf^2 M / dH
+ * within 20 % (lauric acid's 3.9, from the teaching exercise 'Using
+ * freezing point depression to find molecular weight', is the known
+ * outlier at +18 % against its enthalpy of fusion, from memory). */
 Test(solvent, bundled_table_is_complete)
 {
   static const char *const need[] = {

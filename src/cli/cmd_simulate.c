@@ -351,6 +351,11 @@ int ff_cmd_simulate(int argc, char **argv)
     ff_sim_result_release(&r);
     return ff_cli_fail(&d);
   }
+  for (size_t c = 0; c < r.n_cycles; c++)
+    if (!isfinite(r.nucleation_t_s[c]))
+      ff_cli_msg("warning: cycle %zu never nucleates: the bath (%g C) is "
+                 "too warm for the supercooling asked for below %g C", c + 1,
+                 p.bath_c, r.true_fp_c);
   if (json) {
     json_t *root = summary_json(&p, &r, out);
     if (root == NULL || ff_json_write(root, sum) != 0) {
