@@ -28,6 +28,10 @@
  * after 30 s), and at least, with one. */
 #define LIQUID_SKIP_S 30.0
 #define LIQUID_SKIP_MIN_S 10.0
+/* Largest credible distance between the model's pure-solvent freezing
+ * point and the table's, K: calibration offsets of lab probes stay well
+ * below it (common practice, no source). */
+#define SOLVENT_MISMATCH_K 1.0
 /* After a slope break the probe lag rounds the corner; settle this long. */
 #define BREAK_SETTLE_S 30.0
 /* A thaw is a rise of this much above the lowest point of the branch, K. */
@@ -86,6 +90,9 @@ static const struct {
     "only the maximum after recalescence could be read; it sits low" },
   { FF_FLAG_COARSE, "coarse",
     "thermometer resolution coarse (50 mK or more)" },
+  { FF_FLAG_SOLVENT_MISMATCH, "solvent_mismatch",
+    "the freezing branch implies a pure-solvent freezing point far from "
+    "the solvent's: wrong solvent, or a badly calibrated probe" },
 };
 
 const char *ff_flag_name(unsigned flag)
@@ -354,6 +361,7 @@ static void choose(const struct dctx *c, struct ff_event *e)
   const struct ff_detect_params *p = c->p;
   enum ff_method m = p->method;
   const struct ff_estimate *es;
+  const char *mwhy = e->est[FF_METHOD_MODEL].why;
 
   if (m == FF_METHOD_AUTO) {
     if (e->est[FF_METHOD_MODEL].ok && e->est[FF_METHOD_PLATEAU].ok
@@ -376,17 +384,17 @@ static void choose(const struct dctx *c, struct ff_event *e)
     } else if (e->est[FF_METHOD_PLATEAU].ok) {
       m = FF_METHOD_PLATEAU;
       snprintf(e->method_reason, sizeof e->method_reason, "flat freezing "
-               "branch, no Newton fit of the liquid branch: plateau level");
+               "branch, no model reading (%s): plateau level", mwhy);
     } else if (e->flags & FF_FLAG_NO_NUCLEATION) {
       m = FF_METHOD_BREAK;
       snprintf(e->method_reason, sizeof e->method_reason, "no supercooling "
-               "seen and no Newton fit of the liquid branch: two straight "
-               "segments with a fitted breakpoint");
+               "seen and no model reading (%s): two straight segments with a "
+               "fitted breakpoint", mwhy);
     } else if (e->est[FF_METHOD_EXTRAPOLATE].ok) {
       m = FF_METHOD_EXTRAPOLATE;
-      snprintf(e->method_reason, sizeof e->method_reason, "no Newton fit of "
-               "the liquid branch: freezing branch taken back to the "
-               "nucleation instant");
+      snprintf(e->method_reason, sizeof e->method_reason, "no model reading "
+               "(%s): freezing branch taken back to the nucleation instant",
+               mwhy);
     } else {
       m = FF_METHOD_PEAK;
       e->flags |= FF_FLAG_PEAK_ONLY;
@@ -428,7 +436,10 @@ static void choose(const struct dctx *c, struct ff_event *e)
   for (int k = 1; k < FF_METHOD_COUNT; k++)
     if (e->est[k].ok)
       e->est[k].u_k = hypot(e->est[k].u_k, e->u_resolution_k);
-  if (e->flags & FF_FLAG_BRANCH_SHORT) {
+  if (e->flags & FF_FLAG_SOLVENT_MISMATCH) {
+    e->trusted = 0;
+    snprintf(e->status_reason, sizeof e->status_reason, "%s", mwhy);
+  } else if (e->flags & FF_FLAG_BRANCH_SHORT) {
     e->trusted = 0;
     snprintf(e->status_reason, sizeof e->status_reason, "%s",
              (e->flags & FF_FLAG_AT_END)
@@ -443,6 +454,28 @@ static void choose(const struct dctx *c, struct ff_event *e)
     e->supercooling_k = 0.0;
   else
     e->supercooling_k = e->freezing_point_c - e->t_min_c;
+}
+
+/*
+ * The model's pure-solvent freezing point Tf0 = a - b must match the
+ * solvent's table value within a calibration offset: the heat capacity and
+ * latent heat it used are then the right ones. Otherwise its reading is not
+ * used (a wrong --solvent would give a confident, wrong number).
+ */
+static void solvent_check(const struct dctx *c, struct ff_event *e)
+{
+  struct ff_estimate *es = &e->est[FF_METHOD_MODEL];
+
+  if (!es->ok || !isfinite(e->model_tf0_c))
+    return;
+  if (fabs(e->model_tf0_c - c->tf0)
+      > SOLVENT_MISMATCH_K + 3.0 * e->model_u_delta_k) {
+    e->flags |= FF_FLAG_SOLVENT_MISMATCH;
+    es->ok = 0;
+    snprintf(es->why, sizeof es->why, "the branch implies a pure solvent "
+             "freezing at %.2f C, the solvent's is %.2f C: wrong --solvent?",
+             e->model_tf0_c, c->tf0);
+  }
 }
 
 /* Marks disagreement when two sound readings differ beyond 3 combined u
@@ -583,6 +616,7 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
     e->flags |= FF_FLAG_NOISY;
   if (c->res >= 0.05)
     e->flags |= FF_FLAG_COARSE;
+  solvent_check(c, e);
   cross_check(c, e);
   choose(c, e);
 }
@@ -707,6 +741,7 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
     e->flags |= FF_FLAG_NOISY;
   if (c->res >= 0.05)
     e->flags |= FF_FLAG_COARSE;
+  solvent_check(c, e);
   cross_check(c, e);
   choose(c, e);
 }
@@ -796,10 +831,12 @@ int ff_detect_run(const double *t_s, const double *temp_c, size_t n,
     c.cpl = p->solvent->cp_liq_j_g_k;
     c.cps = p->solvent->cp_sol_j_g_k > 0.0 ? p->solvent->cp_sol_j_g_k : c.cpl;
     c.lat = p->solvent->dh_fus_j_mol / p->solvent->m_g_mol;
+    c.tf0 = p->solvent->tf_c;
   } else {
     c.cpl = WATER_CP_LIQ;
     c.cps = WATER_CP_SOL;
     c.lat = WATER_DH_FUS / WATER_M;
+    c.tf0 = 0.0;               /* ice point */
   }
   if (estimate_noise(&c) != 0 || smooth(&c) != 0) {
     free(c.ys);

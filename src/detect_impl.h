@@ -15,6 +15,7 @@ struct dctx {
   double dt;                   /* median sampling interval, s */
   const struct ff_detect_params *p;
   double cpl, cps, lat;        /* J/(g K), J/(g K), J/g */
+  double tf0;                  /* the solvent's tabulated freezing point, C */
 };
 
 /* Index ranges are half-open [i0, i1). */

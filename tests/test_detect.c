@@ -168,6 +168,17 @@ Test(detect, cyclohexane_solution_within_3_mk, .init = setup)
   cr_expect_float_eq(l.v[0].freezing_point_c, c.r.true_fp_c, AUTO_TOL_K,
                      "got %.5f C, true %.5f C (%s)", l.v[0].freezing_point_c,
                      c.r.true_fp_c, ff_method_name(l.v[0].method));
+  /* The model's pure-solvent freezing point is cyclohexane's own (6.54 C
+   * in datasets/solvents.csv, the simulator's Tf0). */
+  cr_expect_float_eq(l.v[0].model_tf0_c, s->tf_c, 0.05, "Tf0 %.4f C",
+                     l.v[0].model_tf0_c);
+  ff_event_list_release(&l);
+  /* Read with water's constants, the same curve must not pass. */
+  detect(&c, NULL, &l);
+  cr_assert_eq(l.n, 1);
+  cr_expect(l.v[0].flags & FF_FLAG_SOLVENT_MISMATCH, "flags %x",
+            l.v[0].flags);
+  cr_expect_not(l.v[0].trusted);
   ff_event_list_release(&l);
   curve_release(&c);
   ff_solvent_table_release(&tab);

@@ -55,9 +55,10 @@ enum ff_flag {
   FF_FLAG_FIT_FAILED = 1u << 7,    /* the chosen fit did not converge */
   FF_FLAG_METHODS_DISAGREE = 1u << 8, /* methods differ beyond uncertainty */
   FF_FLAG_PEAK_ONLY = 1u << 9,     /* only the naive maximum was possible */
-  FF_FLAG_COARSE = 1u << 10        /* resolution coarse against the signal */
+  FF_FLAG_COARSE = 1u << 10,       /* resolution coarse against the signal */
+  FF_FLAG_SOLVENT_MISMATCH = 1u << 11 /* branch implies another solvent */
 };
-#define FF_FLAG_COUNT 11
+#define FF_FLAG_COUNT 12
 /* Short key of one flag bit, e.g. "branch_short"; NULL for an unknown bit. */
 const char *ff_flag_name(unsigned flag);
 /* Plain-words reason for one flag bit; NULL for an unknown bit. */
@@ -88,16 +89,16 @@ struct ff_branch_fit {
 struct ff_estimate {
   int ok;
   double value_c, u_k;
-  char why[96];
+  char why[160];
 };
 
 /* One freeze event. Plain data, nothing to free. */
 struct ff_event {
   unsigned cycle;                  /* 1-based, in time order */
   enum ff_method method;           /* method that gave freezing_point_c */
-  char method_reason[192];         /* why auto chose it (or "requested") */
+  char method_reason[320];         /* why auto chose it (or "requested") */
   int trusted;                     /* 0: do not report freezing_point_c */
-  char status_reason[192];         /* why not trusted, "" when trusted */
+  char status_reason[320];         /* why not trusted, "" when trusted */
   unsigned flags;                  /* enum ff_flag bits */
   double freezing_point_c;         /* NaN when no method could give one */
   double u_freezing_point_k;       /* standard uncertainty (combined) */

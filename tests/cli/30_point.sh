@@ -12,6 +12,24 @@ jnum() { python3 -c "import json,sys; j=json.load(open('$OUT')); print($1)" 2>/d
 "$FF" simulate --cycles 3 --freeze-s 400 --supercool 1 --seed 3 \
   --out "$TMP/cycles.csv" >/dev/null 2>&1
 
+# Cyclohexane: the model needs its heat capacity and latent heat; with
+# water's it would read far off, and says so instead.
+"$FF" simulate --solvent cyclohexane --molality 0.05 --supercool 1 --seed 5 \
+  --out "$TMP/cy.csv" >/dev/null 2>&1
+CASE="point --solvent cyclohexane"
+run "$FF" point "$TMP/cy.csv" --solvent cyclohexane --json
+expect_rc 0
+if [ "$(jnum "abs(j['events'][0]['freezing_point_c'] - (6.54 - 20.8 * 0.05)) < 0.003 and j['solvent'] == 'cyclohexane'")" = True ]
+then ok; else bad "cyclohexane freezing point not within 3 mK of 5.50 C"; fi
+CASE="point: cyclohexane curve read as water: exit 3"
+run "$FF" point "$TMP/cy.csv"
+expect_rc 3; expect_err 'wrong --solvent'; expect_no_out
+CASE="point: unknown solvent"; run "$FF" point "$TMP/cy.csv" --solvent unobtainium
+expect_rc 1; expect_err "unknown solvent 'unobtainium'"
+CASE="point: standard input"
+run sh -c "cat '$TMP/cy.csv' | '$FF' point - --solvent cyclohexane"
+expect_rc 0; expect_out 'model'
+
 CASE="point: salt solution, auto"; run "$FF" point "$TMP/salt.csv"
 expect_rc 0; expect_out 'model'; expect_out '^ +1 +-0\.55[5-9]'
 CASE="point: --all-methods shows every method"
