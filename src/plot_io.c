@@ -276,6 +276,28 @@ int ff_plot_set_claim(struct ff_plot_set *s, const char *name,
   return FF_OK;
 }
 
+/*
+ * Makes a found program path absolute: gnuplot is started after a chdir
+ * into the output folder, where a relative path would point elsewhere.
+ */
+static int absolute(char *out, size_t n)
+{
+  char cwd[4096];
+  char *rel;
+  int ok;
+
+  if (out[0] == '/')
+    return 1;
+  if (getcwd(cwd, sizeof cwd) == NULL)
+    return 0;
+  rel = strdup(out);
+  if (rel == NULL)
+    return 0;
+  ok = snprintf(out, n, "%s/%s", cwd, rel) < (int)n;
+  free(rel);
+  return ok;
+}
+
 int ff_plot_find_gnuplot(const char *prog, char *out, size_t n)
 {
   const char *path, *p;
@@ -286,7 +308,7 @@ int ff_plot_find_gnuplot(const char *prog, char *out, size_t n)
     if (access(prog, X_OK) != 0 || strlen(prog) >= n)
       return 0;
     strcpy(out, prog);
-    return 1;
+    return absolute(out, n);
   }
   path = getenv("PATH");
   if (path == NULL)
@@ -301,7 +323,7 @@ int ff_plot_find_gnuplot(const char *prog, char *out, size_t n)
                len != 0 ? p : ".", prog);
       if (stat(out, &st) == 0 && S_ISREG(st.st_mode) &&
           access(out, X_OK) == 0)
-        return 1;
+        return absolute(out, n);
     }
     if (p[len] == '\0')
       break;

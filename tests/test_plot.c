@@ -919,3 +919,36 @@ Test(plot, sparse_descriptions_render_cleanly)
   ff_plot_set_free(s);
   rm_tree(dir);
 }
+
+/* gnuplot is started after a chdir into the output folder: a program
+ * given by a relative path must still be found. */
+Test(plot, relative_gnuplot_path_still_runs)
+{
+  char dir[64], out[128], real[4096], link[128];
+  struct ff_diag d = FF_DIAG_INIT;
+  struct ff_plot_opts o = FF_PLOT_OPTS_DEFAULT;
+  struct ff_plot_report r;
+  struct event_data ev;
+  struct ff_plot_event_fig f = make_event(&ev, "rel", "t");
+  struct ff_plot_set *s;
+
+  if (!have_gnuplot())
+    cr_skip_test("gnuplot is not installed");
+  cr_assert(ff_plot_find_gnuplot(NULL, real, sizeof real));
+  cr_assert_eq(real[0], '/');
+  make_tmpdir(dir, sizeof dir);
+  snprintf(link, sizeof link, "%s/bin", dir);
+  cr_assert_eq(mkdir(link, 0700), 0);
+  snprintf(link, sizeof link, "%s/bin/gnuplot", dir);
+  cr_assert_eq(symlink(real, link), 0);
+  cr_assert_eq(chdir(dir), 0);  /* each Criterion test runs in its own process */
+  snprintf(out, sizeof out, "%s/out", dir);
+  o.gnuplot = "bin/gnuplot";
+  s = ff_plot_set_new(out, &o, &d);
+  cr_assert_not_null(s);
+  cr_assert_eq(ff_plot_add_event(s, &f, &d), FF_OK);
+  cr_expect_eq(ff_plot_render(s, &r, &d), FF_OK, "%s\n%s", d.msg, r.errors);
+  cr_expect(exists(out, "rel.png"));
+  ff_plot_set_free(s);
+  rm_tree(dir);
+}

@@ -23,6 +23,9 @@
  * goes through ff_plot_safe_name(). Files are replaced atomically
  * (temporary file in the same folder, then rename).
  *
+ * Numbers are written with printf, so LC_NUMERIC must stay "C" (the
+ * project's rule) or gnuplot would read decimal commas as separators.
+ *
  * All arrays in the figure structs are borrowed for the duration of the
  * ff_plot_add_* call only; nothing is kept. Non-finite values are skipped
  * (in a sampled curve they break the line). Optional arrays may be NULL;
@@ -262,8 +265,8 @@ int ff_plot_write_atomic(const char *dir, const char *name, const void *data,
 
 /*
  * Finds prog (NULL: "gnuplot") as execvp would: a name with '/' is checked
- * directly, else each PATH entry. Writes the path into out (size n).
- * Returns 1 when found and executable, 0 otherwise.
+ * directly, else each PATH entry. Writes the absolute path into out
+ * (size n). Returns 1 when found and executable, 0 otherwise.
  */
 int ff_plot_find_gnuplot(const char *prog, char *out, size_t n);
 
