@@ -30,6 +30,7 @@ enum kind { K_MISSING, K_NUM, K_CLOCK, K_DAYTIME, K_ISO, K_DATE, K_TEXT,
 struct shape {                  /* one line split with one delimiter */
   size_t nf;
   size_t n_num;                 /* numbers, clock and ISO times */
+  size_t n_text;                /* neither those nor missing markers */
 };
 
 static int blank(char c)
@@ -153,7 +154,7 @@ static enum kind classify(const char *s, size_t n, char *dec)
 static struct shape shape_of(const char *s, size_t n, char delim,
                              struct span *f)
 {
-  struct shape sh = { 0, 0 };
+  struct shape sh = { 0, 0, 0 };
   char dec;
 
   sh.nf = split(s, n, delim, f, MAX_FIELDS);
@@ -161,6 +162,8 @@ static struct shape shape_of(const char *s, size_t n, char delim,
     enum kind kd = classify(f[k].s, f[k].n, &dec);
     if (kd == K_NUM || kd == K_CLOCK || kd == K_DAYTIME || kd == K_ISO)
       sh.n_num++;
+    else if (kd != K_MISSING)
+      sh.n_text++;
   }
   return sh;
 }
@@ -730,6 +733,16 @@ int ff_import_sniff(const char *buf, size_t len, int eof, const char *path,
     st = no_table(buf, ln, nl, eof, long_tail, path, d);
     goto done;
   }
+  /* rows above it with a time but no temperature yet ("0;---") are data */
+  for (long j = (long)fd - 1; j >= 0; j--) {
+    struct shape sh;
+    if (ln[j].skip)
+      continue;
+    sh = shape_of(buf + ln[j].off, ln[j].len, delim, f);
+    if (!weak(sh) || sh.nf != mode || sh.n_text > 0)
+      break;
+    fd = (size_t)j;
+  }
   /* the header: the line just above the data, text, about as wide */
   for (long j = (long)fd - 1; j >= 0; j--) {
     struct shape sh;
@@ -738,7 +751,8 @@ int ff_import_sniff(const char *buf, size_t len, int eof, const char *path,
     sh = shape_of(buf + ln[j].off, ln[j].len, delim, hf);
     if (delim == ' ' && sh.nf != mode)
       sh = shape_of(buf + ln[j].off, ln[j].len, WS_WIDE, hf);
-    if (sh.nf >= 2 && !strong(sh) && sh.nf + 1 >= mode && sh.nf <= mode + 1) {
+    if (sh.nf >= 2 && sh.n_num == 0 && sh.nf + 1 >= mode
+        && sh.nf <= mode + 1) {
       hdr = j;
       nh = sh.nf;
     }

@@ -388,6 +388,21 @@ Test(import, surplus_empty_last_column_may_be_left_out)
   ff_dataset_free(ds);
 }
 
+Test(import, first_rows_without_a_reading_are_still_data)
+{
+  struct ff_dataset *ds = load(DIR "leading_missing.csv", NULL);
+
+  cr_assert_eq(ds->dialect.header_line, 2);
+  cr_assert_eq(ds->dialect.first_data_line, 3);
+  cr_assert_str_eq(ds->col[0].name, "time");
+  cr_assert_eq(ds->stats.rows_read, 4);
+  cr_assert_eq(ds->stats.rows_all_missing, 2);
+  cr_assert_eq(ds->n, 2);
+  near(ds->t0_s, 2.0, EXACT, "first kept time");
+  near(ds->ch[0].temp_c[1], 1.375, EXACT, "T[1]");
+  ff_dataset_free(ds);
+}
+
 Test(import, quoted_field_over_two_lines)
 {
   struct ff_dataset *ds = load(DIR "quoted_multiline.csv", NULL);

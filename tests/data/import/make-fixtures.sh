@@ -116,6 +116,9 @@ printf 'time (s),T (C)\n0,1.5,\n1,1.25\n2,1.0,\n' > trailing_separator.csv
 printf 'Zeit [min]\tTemp (\302\260C)\n0\t2,15E+01\n0,25\t1,875E+01\n# probe moved\n0,5\t-1,25\n' \
   > tab_decimal_comma.tsv
 
+# The first rows have a time but no reading yet (probe settling).
+printf 'Logger X (synthetic)\ntime,T\n0,---\n1,---\n2,1.5\n3,1.375\n' > leading_missing.csv
+
 # Bad input, one problem each.
 : > bad_empty.csv
 printf 'time (s),T (C)\n' > bad_header_only.csv
