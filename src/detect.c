@@ -491,19 +491,18 @@ static void cross_check(const struct dctx *c, struct ff_event *e)
     e->flags |= FF_FLAG_METHODS_DISAGREE;
 }
 
-/* All readings of one event whose branch is [b0, b_end). */
-static void read_event(const struct dctx *c, struct ff_event *e, size_t s0,
-                       size_t b0, size_t b_end)
+/* The straight-line readings of one event whose settled branch is
+ * [b0, b_end): they use at most max_branch_s of it. */
+static void read_lines(const struct dctx *c, struct ff_event *e, size_t b0,
+                       size_t b_end)
 {
   size_t pe = dd_index_at(c, c->t[b0] + c->p->max_branch_s);
 
-  if (pe < b_end)
-    b_end = pe + 1 > b_end ? b_end : pe + 1;
-  (void)pe;
+  if (pe + 1 < b_end)
+    b_end = pe + 1;
   dd_plateau(c, e, b0, b_end);
   dd_extrapolate(c, e, b0, b_end);
   dd_intersect(c, e, b0, b_end);
-  (void)s0;
 }
 
 static void init_event(struct ff_event *e, unsigned cycle, double res)
@@ -528,7 +527,7 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
                                size_t b_end, int thaw)
 {
   const struct ff_detect_params *p = c->p;
-  size_t h = half_width(c), lw0 = seg0, lw1, b0, s0, mb_end;
+  size_t h = half_width(c), lw0 = seg0, lw1, b0, s0;
   double settle, t90, tmin = c->y[m];
 
   e->start_s = c->t[seg0];
@@ -593,7 +592,7 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
   e->branch_start_s = c->t[b0 < b_end ? b0 : b_end - 1];
   e->branch_end_s = c->t[b_end - 1];
   if (b0 + 1 < b_end)
-    read_event(c, e, m, b0, b_end);
+    read_lines(c, e, b0, b_end);
   else
     for (int k = FF_METHOD_PLATEAU; k < FF_METHOD_COUNT; k++)
       if (k != FF_METHOD_PEAK && k != FF_METHOD_BREAK)
@@ -604,9 +603,8 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
   s0 = dd_index_at(c, c->t[m] - fmax(10.0, 3.0 * (double)h * c->dt));
   if (s0 < lw0)
     s0 = lw0;
-  mb_end = b_end;
   if (b0 + 1 < b_end && s0 < b0)
-    dd_model(c, e, s0, b0, mb_end);
+    dd_model(c, e, s0, b0, b_end);
   else
     snprintf(e->est[FF_METHOD_MODEL].why, sizeof e->est[FF_METHOD_MODEL].why,
              "no freezing branch");
@@ -747,8 +745,8 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
 }
 
 /* Scans [from, n) for the next recalescence; returns 1 with m (minimum) and
- * pk (peak), or 0. *resume is where scanning may go on when 0 is returned
- * with a rejected candidate. */
+ * pk (peak), or 0 when there is none. Rejected rises (warm-ups) are skipped
+ * from their top. */
 static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
                              size_t *pk)
 {
