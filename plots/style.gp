@@ -5,7 +5,7 @@
 # common colour-vision deficiencies; points also differ in shape.
 set encoding utf8
 set datafile missing 'NaN'
-font_name = 'Sans'
+font_name = 'sans-serif'  # fontconfig and SVG viewers both know this family
 font_pt   = 8            # text size at the figure's size in cm (points)
 png_dpi   = 150          # PNG pixels per inch at that size
 col_black  = '#000000'

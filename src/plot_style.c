@@ -10,7 +10,7 @@ const char ff_plot_style_builtin[] =
   "# common colour-vision deficiencies; points also differ in shape.\n"
   "set encoding utf8\n"
   "set datafile missing 'NaN'\n"
-  "font_name = 'Sans'\n"
+  "font_name = 'sans-serif'  # fontconfig and SVG viewers both know this family\n"
   "font_pt   = 8            # text size at the figure's size in cm (points)\n"
   "png_dpi   = 150          # PNG pixels per inch at that size\n"
   "col_black  = '#000000'\n"
