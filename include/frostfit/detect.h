@@ -47,7 +47,7 @@ struct ff_detect_params {
 enum ff_flag {
   FF_FLAG_NO_NUCLEATION = 1u << 0, /* no supercooling seen: slope break only */
   FF_FLAG_BRANCH_SHORT = 1u << 1,  /* freezing branch too short to fit */
-  FF_FLAG_NOISY = 1u << 2,         /* noise large against the depression */
+  FF_FLAG_NOISY = 1u << 2,         /* noise above 20 mK */
   FF_FLAG_BATH_DRIFT = 1u << 3,    /* liquid branch not Newton-like */
   FF_FLAG_LAG_UNSETTLED = 1u << 4, /* probe still settling over the branch */
   FF_FLAG_AT_END = 1u << 5,        /* file ends during the freeze */
@@ -55,7 +55,7 @@ enum ff_flag {
   FF_FLAG_FIT_FAILED = 1u << 7,    /* the chosen fit did not converge */
   FF_FLAG_METHODS_DISAGREE = 1u << 8, /* methods differ beyond uncertainty */
   FF_FLAG_PEAK_ONLY = 1u << 9,     /* only the naive maximum was possible */
-  FF_FLAG_COARSE = 1u << 10,       /* resolution coarse against the signal */
+  FF_FLAG_COARSE = 1u << 10,       /* resolution 50 mK or coarser */
   FF_FLAG_SOLVENT_MISMATCH = 1u << 11 /* branch implies another solvent */
 };
 #define FF_FLAG_COUNT 12
