@@ -952,3 +952,35 @@ Test(plot, relative_gnuplot_path_still_runs)
   ff_plot_set_free(s);
   rm_tree(dir);
 }
+
+Test(plot, render_command_quotes_the_folder_for_the_shell)
+{
+  char dir[64], sub[128], want[300], file[160];
+  struct ff_diag d = FF_DIAG_INIT;
+  struct ff_plot_opts o = FF_PLOT_OPTS_DEFAULT;
+  struct ff_plot_report r;
+  struct ff_plot_set *s;
+  FILE *f;
+
+  make_tmpdir(dir, sizeof dir);
+  snprintf(sub, sizeof sub, "%s/it's $(id)/figs", dir);
+  o.no_render = 1;
+  s = ff_plot_set_new(sub, &o, &d);          /* parents are created too */
+  cr_assert_not_null(s, "%s", d.msg);
+  cr_assert_eq(ff_plot_render(s, &r, &d), FF_OK);
+  snprintf(want, sizeof want, "cd '%s/it'\\''s $(id)/figs' && gnuplot "
+           "render.gp", dir);
+  cr_expect_str_eq(r.command, want);
+  cr_expect_eq(r.n_figures, 0);
+  ff_plot_set_free(s);
+
+  /* a file where the folder should be */
+  snprintf(file, sizeof file, "%s/plain", dir);
+  f = fopen(file, "w");
+  cr_assert_not_null(f);
+  fclose(f);
+  cr_expect_null(ff_plot_set_new(file, &o, &d));
+  cr_expect_eq(d.status, FF_EIO);
+  cr_expect(strstr(d.msg, "not a folder") != NULL, "%s", d.msg);
+  rm_tree(dir);
+}
