@@ -1,5 +1,6 @@
 /* plot_figures.c - plot stage: the four figure kinds as gnuplot scripts plus data files. */
 #include <math.h>
+#include <stdarg.h>
 #include <stdlib.h>
 #include <string.h>
 #include "frostfit/plot.h"
@@ -155,7 +156,6 @@ struct clauses {
 static void clause(struct clauses *c, const char *fmt, ...)
   __attribute__((format(printf, 2, 3)));
 
-#include <stdarg.h>
 static void clause(struct clauses *c, const char *fmt, ...)
 {
   va_list ap;
