@@ -42,7 +42,7 @@ BIN := $(BUILD)/frostfit
 
 # Debian 12 packages: compiler, libraries, test framework, figures.
 DEB_PKGS := gcc make pkg-config libgsl-dev libcsv-dev libcriterion-dev \
-            libjansson-dev gnuplot-nox
+            libjansson-dev gnuplot-nox locales
 
 .PHONY: all deps check check-only test-unit test-cli demo demo-only \
         check-asan bench bench-accuracy bench-speed fuzz install clean
