@@ -14,6 +14,12 @@
 #define MIN_POINTS 20
 /* Liquid cooling looked at before a candidate nucleation, s: it must fall. */
 #define PRE_WINDOW_S 30.0
+/* After a recalescence the branch falls slower than the liquid did: at
+ * most this fraction of its rate over the window (a concentrated solution
+ * in a large-Kf solvent comes nearest, about half); a spike falls back at
+ * the liquid's rate or faster. */
+#define SPIKE_RATIO 0.8
+#define SPIKE_WINDOW_S 30.0
 /* Window of the slope-break search (no supercooling), s. */
 #define BREAK_WINDOW_S 30.0
 /* A sample about to freeze cools by far more than this over the window
@@ -786,6 +792,15 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
       for (k = top; k <= kend && k < c->n; k++)
         if (c->ys[k] > best + 0.5 * rise)
           ok = 0;
+      /* ... and the latent heat slows the cooling: a spike (a touched
+       * probe, a bubble) falls back at the liquid's rate or faster. */
+      kend = dd_index_at(c, c->t[top] + SPIKE_WINDOW_S);
+      if (ok && kend > top && mi > a && c->ys[a] > c->ys[mi]) {
+        double before = (c->ys[a] - c->ys[mi]) / (c->t[mi] - c->t[a]),
+               after = (c->ys[top] - c->ys[kend]) / (c->t[kend] - c->t[top]);
+        if (after > SPIKE_RATIO * before)
+          ok = 0;
+      }
       if (!ok) {
         /* Skip this rise: carry on from its top. */
         j = top;

@@ -247,6 +247,28 @@ Test(detect, no_supercooling_gives_a_slope_break_event, .init = setup)
   curve_release(&c);
 }
 
+/* A single wild reading during liquid cooling (a touched probe) is not a
+ * nucleation; the real freeze later is still found. */
+Test(detect, spike_is_not_a_freeze, .init = setup)
+{
+  struct ff_sim_params p;
+  struct curve c;
+  struct ff_event_list l = FF_EVENT_LIST_INIT;
+  size_t k;
+
+  water_params(&p, 0.15, 2.0, 1.5);
+  simulate(&p, &c);
+  for (k = 0; k < c.n && c.t[k] < 60.0; k++)
+    ;
+  c.y[k] += 0.8;               /* 60 s in: still liquid, well above Tf */
+  c.y[k + 1] += 0.5;
+  detect(&c, NULL, &l);
+  cr_assert_eq(l.n, 1, "found %zu events", l.n);
+  cr_expect_float_eq(l.v[0].nucleation_time_s, c.r.nucleation_t_s[0], 3.0);
+  ff_event_list_release(&l);
+  curve_release(&c);
+}
+
 /* A bath probe: Newton cooling to the bath temperature and nothing else. */
 Test(detect, bath_probe_gives_no_event, .init = setup)
 {
