@@ -187,6 +187,34 @@ int ff_regress_eval(const struct ff_fit *f, double m, double *i_out)
   return isfinite(*i_out) ? FF_OK : FF_EUNTRUSTED;
 }
 
+int ff_regress_eval_u(const struct ff_fit *f, double m, double *i_out,
+                      double *u_out)
+{
+  double g[FF_REGRESS_MAXPAR] = { 0 }, var = 0.0;
+  struct ff_fit w;
+  int st = ff_regress_eval(f, m, i_out);
+
+  if (st != FF_OK)
+    return st;
+  w = *f;   /* shallow copy: only par[] is changed, nothing is freed */
+  for (size_t j = 0; j < f->npar; j++) {
+    double h = 1e-6 * fmax(1.0, fabs(f->par[j])), ip, im;
+    w.par[j] = f->par[j] + h;
+    int a = ff_regress_eval(&w, m, &ip);
+    w.par[j] = f->par[j] - h;
+    int b = ff_regress_eval(&w, m, &im);
+    w.par[j] = f->par[j];
+    if (a != FF_OK || b != FF_OK)
+      return FF_EUNTRUSTED;
+    g[j] = (ip - im) / (2.0 * h);
+  }
+  for (size_t j = 0; j < f->npar; j++)
+    for (size_t k = 0; k < f->npar; k++)
+      var += g[j] * f->cov[j][k] * g[k];
+  *u_out = var > 0.0 ? sqrt(var) : 0.0;
+  return isfinite(*u_out) ? FF_OK : FF_EUNTRUSTED;
+}
+
 /* ---- shared fit plumbing --------------------------------------------- */
 
 static void fit_begin(struct ff_fit *f, const struct ff_regress_input *in,

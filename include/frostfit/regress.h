@@ -204,6 +204,13 @@ int ff_regress_fit_model(const struct ff_regress_input *in,
  * FF_EUNTRUSTED when f did not fit or m is out of range. */
 int ff_regress_eval(const struct ff_fit *f, double m_mol_kg, double *i_out);
 
+/* The fitted curve at m > 0 with its standard uncertainty, propagated
+ * from the parameter covariance through a central-difference gradient
+ * (u^2 = g' C g). The half-width of the confidence band is t_crit * u.
+ * FF_EUNTRUSTED as for ff_regress_eval. */
+int ff_regress_eval_u(const struct ff_fit *f, double m_mol_kg, double *i_out,
+                      double *u_out);
+
 /* Degree of dissociation alpha = (i - 1)/(nu - 1) and u(alpha) =
  * u_i/(nu - 1). FF_EINPUT when nu < 2 or values are not finite. */
 int ff_regress_alpha(double i, double u_i, unsigned nu, double *alpha,

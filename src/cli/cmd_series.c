@@ -558,7 +558,7 @@ static int fig_solute(struct ff_plot_set *ps, const struct ff_series *s,
                       const struct ff_series_solute *g, struct ff_diag *d)
 {
   size_t n = g->n, nm = 0, pref = 0;
-  double *buf = malloc((6 * n + 2 * FF_REGRESS_NMODELS * CURVE_N)
+  double *buf = malloc((6 * n + 4 * FF_REGRESS_NMODELS * CURVE_N)
                        * sizeof *buf);
   struct ff_plot_model models[FF_REGRESS_NMODELS];
   struct ff_plot_solute_fig f = { 0 };
@@ -586,13 +586,24 @@ static int fig_solute(struct ff_plot_set *ps, const struct ff_series *s,
     const struct ff_fit *fit = &g->reg.fit[j];
     if (!fit->attempted || fit->status != FF_OK)
       continue;
-    double *cx = cv + 2 * nm * CURVE_N, *cy = cx + CURVE_N;
+    double *cx = cv + 4 * nm * CURVE_N, *cy = cx + CURVE_N;
+    double *lo = cy + CURVE_N, *hi = lo + CURVE_N;
     size_t c = 0;
-    for (size_t k = 0; k < CURVE_N; k++) {
-      double mm = mmax * 1.05 * (double)(k + 1) / CURVE_N, iv;
-      if (ff_regress_eval(fit, mm, &iv) == FF_OK && isfinite(iv)) {
-        cx[c] = sqrt(mm);
-        cy[c++] = iv;
+    int band = !fit->limit_fixed;
+    /* From m = 0 (the limit and its interval) out past the last point,
+     * evenly in sqrt(m) as the axis is drawn; the band is t * u from the
+     * parameter covariance. */
+    cx[c] = 0.0;
+    cy[c] = fit->i_limit;
+    lo[c] = band ? fit->ci_limit[0] : fit->i_limit;
+    hi[c++] = band ? fit->ci_limit[1] : fit->i_limit;
+    for (size_t k = 1; k < CURVE_N; k++) {
+      double sx = sqrt(mmax * 1.05) * (double)k / (CURVE_N - 1), iv, uv;
+      if (ff_regress_eval_u(fit, sx * sx, &iv, &uv) == FF_OK) {
+        cx[c] = sx;
+        cy[c] = iv;
+        lo[c] = iv - fit->t_crit * uv;
+        hi[c++] = iv + fit->t_crit * uv;
       }
     }
     if (g->reg.has_preferred && g->reg.preferred == fit->model) {
@@ -601,7 +612,7 @@ static int fig_solute(struct ff_plot_set *ps, const struct ff_series *s,
     }
     models[nm++] = (struct ff_plot_model){
       ff_regress_model_name(fit->model),
-      { cx, cy, NULL, NULL, c }, fit->i_limit,
+      { cx, cy, lo, hi, c }, fit->i_limit,
       fit->limit_fixed ? NAN : fit->u_i_limit };
   }
   snprintf(name, sizeof name, "solute_%s_%s", g->solute, g->solvent);
@@ -752,6 +763,8 @@ static int figures(const struct opts *o, const struct ff_series *s)
   if (st == FF_OK) {
     memset(&rep, 0, sizeof rep);
     st = ff_plot_render(ps, &rep, &d);
+    if (rep.errors[0] != '\0')
+      ff_cli_msg("gnuplot reported:\n%s", rep.errors);
     if (st == FF_OK && !o->quiet) {
       if (rep.rendered)
         ff_cli_msg("%zu figures in %s", rep.n_figures, o->figures);
