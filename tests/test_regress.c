@@ -797,3 +797,26 @@ Test(regress, particles_inferred_by_interval_or_ftest, .init = setup)
               r.fit[FF_REGRESS_DEBYE_HUCKEL].ci_limit[1], r.nu_test.p);
   ff_regress_result_release(&r);
 }
+
+/* The band of a straight line in sqrt(m): u^2 = C00 + 2 x C01 + x^2 C11
+ * with x = sqrt(m) (linear propagation, exact for a linear model; GUM
+ * 5.1.2). The numerical gradient must reproduce it. */
+Test(regress, band_matches_linear_propagation, .init = setup)
+{
+  struct salt s;
+  struct ff_fit f = FF_FIT_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  double iv, uv, x = sqrt(0.0371);
+
+  load_salt("NaCl", &s);
+  struct ff_regress_input in = salt_input(&s, 0);
+  cr_assert_eq(ff_regress_fit_model(&in, FF_REGRESS_SQRT_LINEAR, NULL, &f, &d),
+               FF_OK, "%s", d.msg);
+  cr_assert_eq(ff_regress_eval_u(&f, 0.0371, &iv, &uv), FF_OK);
+  double want = sqrt(f.cov[0][0] + 2.0 * x * f.cov[0][1]
+                     + x * x * f.cov[1][1]);
+  cr_expect_float_eq(uv, want, 1e-6 * want, "u %.9g, want %.9g", uv, want);
+  cr_expect_float_eq(iv, f.par[0] + f.par[1] * x, 1e-12);
+  cr_expect_eq(ff_regress_eval_u(&f, -1.0, &iv, &uv), FF_EUNTRUSTED);
+  ff_fit_release(&f);
+}
