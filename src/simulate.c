@@ -82,6 +82,13 @@ void ff_sim_params_default(struct ff_sim_params *p)
   p->bath_channel = 0;
 }
 
+void ff_sim_params_solvent(struct ff_sim_params *p, const struct ff_solvent *s)
+{
+  p->solvent = *s;
+  p->start_c = s->tf_c + 5.0;
+  p->bath_c = s->tf_c - 6.0;
+}
+
 double ff_sim_true_fp_c(const struct ff_sim_params *p)
 {
   return p->solvent.tf_c

@@ -53,6 +53,7 @@ struct loader {
   struct ff_solvent cur;
   int have[N_COLS];
   int failed;
+  int decimal_comma;               /* ';'-separated file: 6,54 means 6.54 */
 };
 
 void ff_solvent_table_release(struct ff_solvent_table *t)
@@ -139,7 +140,7 @@ static void header_field(struct loader *L, const char *cell)
 
 static int parse_number(struct loader *L, const char *cell, int c, double *out)
 {
-  char *end;
+  char *end, fixed[64];
   double x;
 
   if (cell[0] == '\0') {
@@ -148,6 +149,15 @@ static int parse_number(struct loader *L, const char *cell, int c, double *out)
                  cols[c].name);
     *out = NAN;
     return 0;
+  }
+  if (L->decimal_comma && strchr(cell, ',') != NULL &&
+      strchr(cell, '.') == NULL && strlen(cell) < sizeof fixed) {
+    char *comma;
+    memcpy(fixed, cell, strlen(cell) + 1);
+    comma = strchr(fixed, ',');
+    *comma = '.';
+    if (strchr(comma + 1, ',') == NULL)
+      cell = fixed;
   }
   errno = 0;
   x = strtod(cell, &end);
@@ -310,6 +320,36 @@ static void on_record(int term, void *ctx)
   new_row(L);
 }
 
+/*
+ * Looks at the start of the file: skips a UTF-8 byte-order mark (returns its
+ * length) and picks the delimiter from the first line that is not a
+ * comment: ';' when it has semicolons and no commas (a spreadsheet in a
+ * decimal-comma locale), else ','.
+ */
+static size_t sniff(const unsigned char *b, size_t n, unsigned char *delim)
+{
+  size_t i = 0, skip = 0;
+
+  if (n >= 3 && b[0] == 0xEF && b[1] == 0xBB && b[2] == 0xBF)
+    i = skip = 3;
+  *delim = ',';
+  while (i < n) {
+    size_t e = i, commas = 0, semis = 0;
+    while (e < n && b[e] != '\n') {
+      commas += b[e] == ',';
+      semis += b[e] == ';';
+      e++;
+    }
+    if (b[i] != '#' && e > i + 1) {
+      if (semis > 0 && commas == 0)
+        *delim = ';';
+      break;
+    }
+    i = e + 1;
+  }
+  return skip;
+}
+
 /* Merges the rows of one file into t: same name replaces, else appends. */
 static int merge(struct ff_solvent_table *t, const struct ff_solvent_table *add)
 {
@@ -332,9 +372,9 @@ int ff_solvent_table_load(struct ff_solvent_table *t, const char *path,
   struct loader L = { 0 };
   struct csv_parser p;
   FILE *f;
-  unsigned char buf[4096];
-  size_t n;
-  int st = FF_OK;
+  unsigned char buf[4096], delim;
+  size_t n, from;
+  int st = FF_OK, first = 1;
 
   f = fopen(path, "rb");
   if (f == NULL)
@@ -350,8 +390,21 @@ int ff_solvent_table_load(struct ff_solvent_table *t, const char *path,
   L.line = 1;
   new_row(&L);
   while (!L.failed && (n = fread(buf, 1, sizeof buf, f)) > 0) {
+    from = 0;
+    if (first) {
+      from = sniff(buf, n, &delim);
+      csv_set_delim(&p, delim);
+      L.decimal_comma = delim == ';';
+      first = 0;
+    }
     /* One byte at a time, so every callback knows its physical line. */
-    for (size_t i = 0; i < n && !L.failed; i++) {
+    for (size_t i = from; i < n && !L.failed; i++) {
+      if (buf[i] == '\0') {
+        struct ff_loc at = { path, L.line, 0 };
+        ff_diag_set(d, FF_EINPUT, &at, "not a text file (a zero byte)");
+        L.failed = 1;
+        break;
+      }
       if (csv_parse(&p, buf + i, 1, on_field, on_record, &L) != 1) {
         struct ff_loc at = { path, L.line, L.field + 1 };
         ff_diag_set(d, FF_EINPUT, &at, "cannot read the CSV: %s",

@@ -214,3 +214,46 @@ Test(solvent, user_file_overrides_by_name)
   ff_solvent_table_release(&t);
   unlink(p);
 }
+
+/* Spreadsheets in decimal-comma locales save ';'-separated files, often
+ * with a byte-order mark: read them as they are. */
+Test(solvent, semicolon_file_with_bom_and_decimal_commas)
+{
+  struct ff_solvent_table t = FF_SOLVENT_TABLE_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  const struct ff_solvent *s;
+  const char *p = temp_csv("\xEF\xBB\xBF# eigene Werte\n"
+                           "name;tf_c;kf_k_kg_mol;dh_fus_j_mol;m_g_mol;"
+                           "hazard\n"
+                           "Cyclohexan;6,47;20,15;2680;84,16;\"brennbar, "
+                           "Abzug\"\n");
+
+  cr_assert_eq(ff_solvent_table_load(&t, p, &d), FF_OK, "%lu:%lu: %s",
+               d.line, d.col, d.msg);
+  s = ff_solvent_find(&t, "cyclohexan");
+  cr_assert_not_null(s);
+  cr_assert_float_eq(s->tf_c, 6.47, 1e-12);
+  cr_assert_float_eq(s->kf_k_kg_mol, 20.15, 1e-12);
+  cr_assert_float_eq(s->m_g_mol, 84.16, 1e-12);
+  cr_assert_str_eq(s->hazard, "brennbar, Abzug");
+  ff_solvent_table_release(&t);
+  unlink(p);
+}
+
+Test(solvent, binary_file_is_refused)
+{
+  struct ff_solvent_table t = FF_SOLVENT_TABLE_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  char path[64] = "/tmp/ff_solvent_XXXXXX";
+  int fd = mkstemp(path);
+  static const char bin[] = "name,tf_c,kf_k_kg_mol,dh_fus_j_mol,m_g_mol\n"
+                            "\0\0\x01x";
+
+  cr_assert_geq(fd, 0);
+  cr_assert_eq(write(fd, bin, sizeof bin), (ssize_t)sizeof bin);
+  close(fd);
+  cr_assert_eq(ff_solvent_table_load(&t, path, &d), FF_EINPUT);
+  cr_assert_eq(d.line, 2);
+  cr_assert_eq(t.n, 0);
+  unlink(path);
+}

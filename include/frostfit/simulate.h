@@ -58,6 +58,10 @@ void ff_sim_params_default(struct ff_sim_params *p);
 /* Water as the defaults use it (same values as datasets/solvents.csv). */
 void ff_sim_water(struct ff_solvent *s);
 
+/* Copies solvent s into p and moves the start and bath temperatures to
+ * s->tf_c + 5 and s->tf_c - 6 (the water defaults, relative to Tf0). */
+void ff_sim_params_solvent(struct ff_sim_params *p, const struct ff_solvent *s);
+
 /* Freezing point of the initial solution under the model's own law:
  * Tf0 - i Kf b0 [C]. */
 double ff_sim_true_fp_c(const struct ff_sim_params *p);

@@ -51,8 +51,8 @@ static void usage(FILE *f)
 "  --dropout F        fraction of samples lost (empty cells), 0..1 (0)\n"
 "  --seed N           random seed; same seed, same curve (1)\n"
 "output:\n"
-"  --out FILE         write the CSV there (default: standard output, and the\n"
-"                     summary then goes to standard error)\n"
+"  --out FILE         write the CSV there (default, or '-': standard output,\n"
+"                     and the summary then goes to standard error)\n"
 "  --json             summary as JSON (key true_freezing_point_c)\n"
 "  --help             this text\n\n"
 "exit codes: 0 ok, 1 usage error, 2 unknown solvent or bad solvent table,\n"
@@ -291,7 +291,7 @@ int ff_cmd_simulate(int argc, char **argv)
       continue;
     }
     if (strcmp(name, "--out") == 0) {
-      out = val;
+      out = strcmp(val, "-") == 0 ? NULL : val;
       continue;
     }
     if (strcmp(name, "--cycles") == 0) {
@@ -316,17 +316,20 @@ int ff_cmd_simulate(int argc, char **argv)
   p.cycles = (unsigned)cycles;
   p.seed = (unsigned long)seed;
   if (solvent != NULL || user_file != NULL) {
-    if ((st = pick_solvent(solvent ? solvent : "water", user_file,
-                           &p.solvent)) != FF_OK)
+    struct ff_solvent sv;
+    double start = p.start_c, bath = p.bath_c;
+    if ((st = pick_solvent(solvent ? solvent : "water", user_file, &sv))
+        != FF_OK)
       return st;
-  }
-  /* Start and bath default to the solvent's own freezing point +5 / -6 K
-   * (the water defaults), so every solvent works without extra options. */
-  for (size_t k = 0; k < n_opts; k++) {
-    if (opts[k].dst == &p.start_c && !opts[k].given)
-      p.start_c = p.solvent.tf_c + 5.0;
-    if (opts[k].dst == &p.bath_c && !opts[k].given)
-      p.bath_c = p.solvent.tf_c - 6.0;
+    /* Start and bath default to the solvent's own Tf0 + 5 / - 6 K (the
+     * water defaults), so every solvent works without extra options. */
+    ff_sim_params_solvent(&p, &sv);
+    for (size_t k = 0; k < n_opts; k++) {
+      if (opts[k].dst == &p.start_c && opts[k].given)
+        p.start_c = start;
+      if (opts[k].dst == &p.bath_c && opts[k].given)
+        p.bath_c = bath;
+    }
   }
 
   if ((st = ff_simulate_run(&p, &r, &d)) != FF_OK) {

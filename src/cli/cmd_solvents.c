@@ -20,6 +20,7 @@ static void usage(FILE *f)
 "hazards and the source of every row, then a general caution.\n\n"
 "  --file USER.csv  your own rows (same columns, docs/formats/solvents.md),\n"
 "                   read after the bundled table: same name replaces\n"
+"                   (also spelled --solvents-file, as in 'simulate')\n"
 "  --json           machine-readable output\n"
 "  NAME             show one solvent (name or alias)\n"
 "  --help           this text\n\n"
@@ -190,12 +191,15 @@ int ff_cmd_solvents(int argc, char **argv)
       return ff_cli_finish(FF_OK);
     } else if (strcmp(arg, "--json") == 0) {
       json = 1;
-    } else if (strcmp(arg, "--file") == 0) {
+    } else if (strcmp(arg, "--file") == 0 ||
+               strcmp(arg, "--solvents-file") == 0) {
       if (a + 1 >= argc)
-        return ff_cli_usage(CMD, "--file needs a value");
+        return ff_cli_usage(CMD, "%s needs a value", arg);
       user = argv[++a];
     } else if (strncmp(arg, "--file=", 7) == 0) {
       user = arg + 7;
+    } else if (strncmp(arg, "--solvents-file=", 16) == 0) {
+      user = arg + 16;
     } else if (arg[0] == '-' && arg[1] != '\0') {
       return ff_cli_usage(CMD, "unknown option '%s'", arg);
     } else if (name == NULL) {

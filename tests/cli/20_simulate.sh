@@ -31,3 +31,5 @@ expect_rc 1; expect_err 'start temperature'
 CASE="simulate bath channel"; run "$FF" simulate --bath-channel --bath-drift 0.0004 --out "$TMP/bath.csv" --json
 expect_rc 0; expect_out '"bath_drift_k_s": 0\.0004'
 if [ "$(head -1 "$TMP/bath.csv")" = "time_s,T (C),bath (C)" ]; then ok; else bad "bath column header"; fi
+CASE="simulate --out -"; run "$FF" simulate --out - --json
+expect_rc 0; expect_out '^time_s,T \(C\)$'; expect_err '"true_freezing_point_c": 0'

@@ -24,3 +24,6 @@ CASE="simulate with a user solvent"; run "$FF" simulate --solvents-file "$TMP/mi
 expect_rc 0; expect_out '"kf_k_kg_mol": 20\.15'
 CASE="simulate solvent lacking constants"; run "$FF" simulate --solvents-file "$TMP/mine.csv" --solvent menthol
 expect_rc 2; expect_err 'menthol'; expect_no_out
+printf '\357\273\277name;tf_c;kf_k_kg_mol;dh_fus_j_mol;m_g_mol\nCyclohexan;6,47;20,15;2680;84,16\n' >"$TMP/semi.csv"
+CASE="solvents semicolon file with decimal commas"; run "$FF" solvents --solvents-file "$TMP/semi.csv" cyclohexan
+expect_rc 0; expect_out '^cyclohexan +6\.470 +20\.150 +20\.41'
