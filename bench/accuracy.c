@@ -43,6 +43,12 @@ static void add(struct band *b, int m, double e)
   b->err[m][b->n[m]++] = e;
 }
 
+static void band_release(struct band *b)
+{
+  for (int m = 0; m < FF_METHOD_COUNT; m++)
+    free(b->err[m]);
+}
+
 static void report(struct band *b)
 {
   printf("\n%s: %zu curves, %zu with no event found, %zu with no trusted "
@@ -253,6 +259,12 @@ int main(void)
   report(&all);
   report(&case3);
   printf("\nCPU time %.1f s\n", (double)(clock() - c0) / CLOCKS_PER_SEC);
+  {
+    struct band *all_bands[] = { &target, &tw, &tc, &hard, &coarse, &noisy,
+                                 &all, &case3 };
+    for (size_t k = 0; k < sizeof all_bands / sizeof all_bands[0]; k++)
+      band_release(all_bands[k]);
+  }
   ff_solvent_table_release(&tab);
   return 0;
 }
