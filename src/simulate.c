@@ -255,7 +255,7 @@ static int record(struct sim *s)
   struct ff_sim_result *r = s->r;
 
   if (r->n == s->cap && grow(s) != FF_OK)
-    return s->d->status;
+    return (int)s->d->status;
   r->t_s[r->n] = s->t;
   r->sample_c[r->n] = s->y[0];
   r->ice_frac[r->n] = s->y[1] < 0.0 ? 0.0 : s->y[1];

@@ -97,12 +97,11 @@ static int pick_solvent(const char *name, const char *user_file,
   struct ff_diag d = FF_DIAG_INIT;
   char path[4096];
   const struct ff_solvent *s;
-  int st;
 
   snprintf(path, sizeof path, "%s/solvents.csv", ff_cli_datadir());
-  if ((st = ff_solvent_table_load(&t, path, &d)) != FF_OK ||
+  if (ff_solvent_table_load(&t, path, &d) != FF_OK ||
       (user_file != NULL &&
-       (st = ff_solvent_table_load(&t, user_file, &d)) != FF_OK)) {
+       ff_solvent_table_load(&t, user_file, &d) != FF_OK)) {
     ff_solvent_table_release(&t);
     return ff_cli_fail(&d);
   }

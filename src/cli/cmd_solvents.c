@@ -182,7 +182,7 @@ int ff_cmd_solvents(int argc, char **argv)
   const char *user = NULL, *name = NULL, *files[2];
   char path[4096];
   size_t from = 0, to, n_files = 1;
-  int json = 0, st;
+  int json = 0;
 
   for (int a = 1; a < argc; a++) {
     const char *arg = argv[a];
@@ -210,11 +210,11 @@ int ff_cmd_solvents(int argc, char **argv)
   }
   snprintf(path, sizeof path, "%s/solvents.csv", ff_cli_datadir());
   files[0] = path;
-  if ((st = ff_solvent_table_load(&t, path, &d)) != FF_OK)
+  if (ff_solvent_table_load(&t, path, &d) != FF_OK)
     return ff_cli_fail(&d);
   if (user != NULL) {
     files[n_files++] = user;
-    if ((st = ff_solvent_table_load(&t, user, &d)) != FF_OK) {
+    if (ff_solvent_table_load(&t, user, &d) != FF_OK) {
       ff_solvent_table_release(&t);
       return ff_cli_fail(&d);
     }
