@@ -146,6 +146,17 @@ print(len(e), "freeze events,", sum(1 for x in e if x.get("trusted")), "trusted"
   fi
 fi
 
+# The import alone, to tell reading from analysis.
+if [ "$what" = point ]; then
+  run_timed /dev/null "$bin" inspect "$large" --json
+  if [ "$rc" = 0 ]; then
+    awk -v s="$secs" -v b="$bytes" -v r="$nrows" -v k="${rss_kb:-0}" -v c="$cols" 'BEGIN {
+      printf "   frostfit inspect %7.3f s  %7.1f MB/s  %6.2f M rows/s  (import only", s, b / 1e6 / s, r / 1e6 / s
+      if (k > 0) printf ", peak RSS %.1f MiB = %.2f x numeric", k / 1024, k / 1024 / (r * c * 8 / 1048576)
+      printf ")\n" }'
+  fi
+fi
+
 # --- pandas/numpy comparison ----------------------------------------------
 py=/usr/bin/python3
 if ! $py -c 'import pandas, numpy' 2>/dev/null; then
