@@ -505,7 +505,10 @@ static int check_params(const struct ff_sim_params *p, struct ff_diag *d)
     { "time constant", p->tau_s, p->tau_s > 0.0 },
     { "stirring power", p->stir_w, p->stir_w >= 0.0 },
     { "supercooling", p->supercool_k, p->supercool_k < 50.0 },
-    { "growth rate", p->growth_rate, p->growth_rate > 0.0 },
+    /* Above 1e4 /(K s) the freezing branch is too stiff to follow (and the
+     * kinetic undercooling already far below a microkelvin). */
+    { "growth rate", p->growth_rate,
+      p->growth_rate > 0.0 && p->growth_rate <= 1e4 },
     { "growth area fraction", p->growth_area_frac, p->growth_area_frac >= 0.0 },
     { "probe lag", p->probe_lag_s, p->probe_lag_s >= 0.0 },
     { "noise", p->noise_k, p->noise_k >= 0.0 },
