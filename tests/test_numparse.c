@@ -285,3 +285,24 @@ Test(numparse, overflow_is_a_range_error_with_signed_huge_val)
   cr_expect(isinf(v) && v < 0, "got %g", v);
   cr_expect_str_eq(ff_num_status_name(FF_NUM_RANGE), "out of range");
 }
+
+Test(numparse, ignores_a_decimal_comma_process_locale)
+{
+  static const char *const names[] = {
+    "de_DE.UTF-8", "de_DE.utf8", "fr_FR.UTF-8", "fr_FR.utf8", "nl_NL.UTF-8",
+  };
+  const char *got_locale = NULL;
+  double v = 0;
+
+  for (size_t i = 0; i < sizeof names / sizeof names[0] && !got_locale; i++)
+    got_locale = setlocale(LC_NUMERIC, names[i]);
+  if (got_locale == NULL || strcmp(localeconv()->decimal_point, ",") != 0)
+    cr_skip_test("no decimal-comma locale installed (locale -a)");
+  /* fast path and library path both keep reading '.' as the mark */
+  cr_expect_eq(ff_parse_double("-12.375", 7, '.', &v), FF_NUM_OK);
+  cr_expect_eq(bits(v), bits(-12.375));
+  cr_expect_eq(ff_parse_double("1.00000000000000011102230246251565404236316680908203126",
+                               55, '.', &v), FF_NUM_OK);
+  cr_expect_eq(bits(v), bits(0x1.0000000000001p0));
+  setlocale(LC_NUMERIC, "C");
+}
