@@ -41,17 +41,18 @@ void ff_sim_water(struct ff_solvent *s)
 {
   memset(s, 0, sizeof *s);
   snprintf(s->name, sizeof s->name, "water");
-  snprintf(s->aliases, sizeof s->aliases, "h2o");
+  snprintf(s->aliases, sizeof s->aliases, "h2o|ice");
   s->tf_c = 0.0;               /* ice point */
   s->kf_k_kg_mol = 1.860;      /* USP <785> */
   s->dh_fus_j_mol = 6006.77;   /* IAPWS-95/06 via python3-iapws, computed */
   s->m_g_mol = 18.015268;      /* IAPWS value */
   s->cp_liq_j_g_k = 4.2194;    /* IAPWS-95 at 273.15 K, computed */
   s->cp_sol_j_g_k = 2.0967;    /* IAPWS-06 at 273.15 K, computed */
-  snprintf(s->hazard, sizeof s->hazard, "no chemical hazard; cold baths "
-           "still burn skin");
+  snprintf(s->hazard, sizeof s->hazard, "No chemical hazard. Cold baths "
+           "(ice-salt, dry ice) still cause frostbite.");
   snprintf(s->source, sizeof s->source, "built-in copy of the water row of "
-           "datasets/solvents.csv");
+           "datasets/solvents.csv (Kf: USP <785>; dH_fus, cp: IAPWS-95/06 "
+           "via python3-iapws, computed at 273.15 K)");
 }
 
 void ff_sim_params_default(struct ff_sim_params *p)

@@ -8,6 +8,7 @@
 
 #include <criterion/criterion.h>
 
+#include "frostfit/simulate.h"
 #include "frostfit/solvent.h"
 
 #define TABLE "datasets/solvents.csv"
@@ -256,4 +257,28 @@ Test(solvent, binary_file_is_refused)
   cr_assert_eq(d.line, 2);
   cr_assert_eq(t.n, 0);
   unlink(path);
+}
+
+/* The simulator's built-in water (used when no table is loaded) must be
+ * the table's water row, constant for constant. */
+Test(solvent, simulator_water_matches_the_table)
+{
+  struct ff_solvent_table t = FF_SOLVENT_TABLE_INIT;
+  struct ff_solvent w;
+  const struct ff_solvent *row;
+
+  load_bundled(&t);
+  row = ff_solvent_find(&t, "water");
+  cr_assert_not_null(row);
+  ff_sim_water(&w);
+  cr_assert_str_eq(w.name, row->name);
+  cr_assert_str_eq(w.aliases, row->aliases);
+  cr_assert_str_eq(w.hazard, row->hazard);
+  cr_assert_float_eq(w.tf_c, row->tf_c, 1e-15);
+  cr_assert_float_eq(w.kf_k_kg_mol, row->kf_k_kg_mol, 1e-15);
+  cr_assert_float_eq(w.dh_fus_j_mol, row->dh_fus_j_mol, 1e-12);
+  cr_assert_float_eq(w.m_g_mol, row->m_g_mol, 1e-15);
+  cr_assert_float_eq(w.cp_liq_j_g_k, row->cp_liq_j_g_k, 1e-15);
+  cr_assert_float_eq(w.cp_sol_j_g_k, row->cp_sol_j_g_k, 1e-15);
+  ff_solvent_table_release(&t);
 }
