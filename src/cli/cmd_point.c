@@ -1,5 +1,6 @@
 /* cli/cmd_point.c - 'frostfit point': the freezing point of every freeze
  * event of every channel of a logger CSV (import, then detect). */
+#include <limits.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -9,6 +10,7 @@
 #include "frostfit/detect.h"
 #include "frostfit/import.h"
 #include "frostfit/json.h"
+#include "frostfit/plot.h"
 #include "frostfit/solvent.h"
 
 static const char *const CMD = "point";
@@ -34,6 +36,9 @@ static void help(void)
          "  --unit C|K|F       temperature unit of every channel\n"
          "  --all-methods      also show every method's reading side by side\n"
          "  --json             machine-readable output\n"
+         "  --figures DIR      a figure of every trusted event (gnuplot script,\n"
+         "                     data and rendering) into DIR\n"
+         "  --format LIST      figure formats: png, svg, pdf or all (png)\n"
          "  --help             this text\n\n"
          "methods:\n"
          "  model        energy balance: Newton fit of the liquid branch gives\n"
@@ -266,6 +271,28 @@ static int print_json(const struct ff_dataset *ds, const struct chan *ch,
   return bad ? FF_EIO : FF_OK;
 }
 
+/* Runs gnuplot over the event figures; a missing gnuplot is not an error
+ * (the scripts stay, and the user is told how to render them). */
+static int render(struct ff_plot_set *ps, const char *dir)
+{
+  struct ff_plot_report rep;
+  struct ff_diag d = FF_DIAG_INIT;
+  int st;
+
+  memset(&rep, 0, sizeof rep);
+  st = ff_plot_render(ps, &rep, &d);
+  if (rep.errors[0] != '\0')
+    ff_cli_msg("gnuplot reported:\n%s", rep.errors);
+  if (st != FF_OK)
+    return ff_cli_fail(&d);
+  if (rep.rendered)
+    ff_cli_msg("%zu figures in %s", rep.n_figures, dir);
+  else
+    ff_cli_msg("gnuplot not found: %zu figure scripts in %s; render with: %s",
+               rep.n_figures, dir, rep.command);
+  return FF_OK;
+}
+
 /* Says on stderr why nothing could be trusted. */
 static void explain(const struct ff_dataset *ds, const struct chan *ch,
                     size_t nch)
@@ -288,6 +315,11 @@ int ff_cmd_point(int argc, char **argv)
   struct ff_solvent_table tab = FF_SOLVENT_TABLE_INIT;
   struct ff_diag d = FF_DIAG_INIT;
   const char *path = NULL, *chan_spec = NULL, *solvent = NULL;
+  const char *fig_dir = NULL;
+  struct ff_plot_opts po = FF_PLOT_OPTS_DEFAULT;
+  struct ff_plot_set *ps = NULL;
+  int formats_given = 0;
+  char plots[PATH_MAX];
   const struct ff_solvent *sv = NULL;
   struct ff_dataset *ds = NULL;
   struct chan *ch = NULL;
@@ -308,12 +340,20 @@ int ff_cmd_point(int argc, char **argv)
     } else if (strcmp(a, "--channel") == 0 || strcmp(a, "--method") == 0
                || strcmp(a, "--solvent") == 0
                || strcmp(a, "--resolution") == 0
-               || strcmp(a, "--unit") == 0) {
+               || strcmp(a, "--unit") == 0 || strcmp(a, "--figures") == 0
+               || strcmp(a, "--format") == 0) {
       if (i + 1 >= argc)
         return ff_cli_usage(CMD, "%s needs a value", a);
       const char *v = argv[++i];
       if (strcmp(a, "--channel") == 0) {
         chan_spec = v;
+      } else if (strcmp(a, "--figures") == 0) {
+        fig_dir = v;
+      } else if (strcmp(a, "--format") == 0) {
+        struct ff_diag fd = FF_DIAG_INIT;
+        if (ff_plot_parse_formats(v, &po.formats, &fd) != FF_OK)
+          return ff_cli_usage(CMD, "--format: %s", fd.msg);
+        formats_given = 1;
       } else if (strcmp(a, "--method") == 0) {
         if (ff_method_parse(v, &dp.method) != 0)
           return ff_cli_usage(CMD, "unknown method '%s' (auto, model, "
@@ -347,6 +387,8 @@ int ff_cmd_point(int argc, char **argv)
   }
   if (path == NULL)
     return ff_cli_usage(CMD, "no FILE given");
+  if (formats_given && fig_dir == NULL)
+    return ff_cli_usage(CMD, "--format needs --figures DIR");
 
   /* Solvent constants: the bundled table; without it (and without
    * --solvent) the detector's built-in water constants serve. */
@@ -405,8 +447,32 @@ int ff_cmd_point(int argc, char **argv)
     else if (ch[c].ev.n == 0)
       snprintf(ch[c].note, sizeof ch[c].note, "no freeze found: no "
                "recalescence and no slope break (a bath or room probe?)");
-    for (size_t i = 0; i < ch[c].ev.n; i++)
-      trusted += ch[c].ev.v[i].trusted != 0;
+    for (size_t i = 0; i < ch[c].ev.n; i++) {
+      const struct ff_event *e = &ch[c].ev.v[i];
+      if (!e->trusted)
+        continue;
+      trusted++;
+      if (fig_dir == NULL)
+        continue;
+      if (ps == NULL) {
+        struct ff_diag pd = FF_DIAG_INIT;
+        po.plots_dir = ff_plot_dir_beside(ff_cli_datadir(), plots,
+                                          sizeof plots);
+        ps = ff_plot_set_new(fig_dir, &po, &pd);
+        if (ps == NULL) {
+          st = ff_cli_fail(&pd);
+          goto out;
+        }
+      }
+      {
+        struct ff_diag pd = FF_DIAG_INIT;
+        if (ff_plot_add_detected(ps, path, ds->ch[ch[c].index].name, t, y,
+                                 m, e, &pd) != FF_OK) {
+          st = ff_cli_fail(&pd);
+          goto out;
+        }
+      }
+    }
   }
   if (trusted == 0) {
     explain(ds, ch, nch);
@@ -417,7 +483,10 @@ int ff_cmd_point(int argc, char **argv)
     st = print_json(ds, ch, nch, sv ? sv->name : "water (built-in)");
   else
     print_table(ds, ch, nch, all, sv ? sv->name : "water (built-in)");
+  if (st == FF_OK && ps != NULL)
+    st = render(ps, fig_dir);
 out:
+  ff_plot_set_free(ps);
   for (size_t c = 0; ch != NULL && c < nch; c++)
     ff_event_list_release(&ch[c].ev);
   free(ch);

@@ -86,3 +86,11 @@ CASE="point: no file"; run "$FF" point
 expect_rc 1
 CASE="point --help"; run "$FF" point --help
 expect_rc 0; expect_out '^usage: frostfit point'
+CASE="point --format without --figures"
+run "$FF" point "$TMP/salt.csv" --format svg
+expect_rc 1; expect_err 'needs --figures'
+CASE="point --figures: one figure per trusted event (scripts even without gnuplot)"
+run "$FF" point "$TMP/cycles.csv" --figures "$TMP/ptfig" --format svg
+expect_rc 0; expect_err 'figure'
+n=$(ls "$TMP"/ptfig/*_c[0-9]*.gp 2>/dev/null | wc -l)
+if [ "$n" -eq 3 ]; then ok; else bad "$n event figure scripts, want 3"; fi
