@@ -173,8 +173,8 @@ static int rhs(double t, const double y[], double f[], void *params)
   return GSL_SUCCESS;
 }
 
-/* Forward-difference Jacobian: the model switches branches (grow/melt), so a
- * numerical one is simpler to keep right than three analytic ones. */
+/* Forward-difference Jacobian: simpler to keep right than an analytic one
+ * through every factor of the growth law, and cheap for three states. */
 static int jac(double t, const double y[], double *dfdy, double dfdt[],
                void *params)
 {
@@ -429,6 +429,8 @@ static int cool_and_freeze(struct sim *s, unsigned c)
      * seed crystal's latent heat warms the sample by L x_seed / cp. */
     s->y[0] = tf_true - u + s->m.lat * ICE_SEED_X / s->m.cpl;
     s->y[1] = ICE_SEED_X;
+    if (!(p->probe_lag_s > 0.0))
+      s->y[2] = s->y[0];          /* an ideal probe is the sample */
     r->nucleation_t_s[c] = t_n;
     r->supercool_k[c] = u;
     s->m.growth = 1;
