@@ -126,7 +126,8 @@ static int gen_large(const char *path, unsigned long rows, unsigned cycles)
   enum { NCH = 4 };
   const double dt = 0.1;
   const double fp[NCH] = { 0.0, -0.186, -0.372, -0.744 };
-  double period = (double)rows * dt / cycles;
+  /* whole rows, so every trigger below fires exactly once per period */
+  unsigned long period = rows / cycles > 10 ? rows / cycles : 10;
   struct probe pr[NCH];
   static char buf[1 << 20];
   FILE *f = fopen(path, "w");
@@ -144,11 +145,11 @@ static int gen_large(const char *path, unsigned long rows, unsigned cycles)
     fprintf(f, "%.1f", t);
     for (int c = 0; c < NCH; c++) {
       /* probes start their cycles staggered by an eighth of a period */
-      double tc = fmod(t + period * (1.0 - c / 8.0), period);
+      unsigned long ic = (i + period - period * (unsigned long)c / 8) % period;
       /* warm for the first 30 % of each period, then cool and freeze */
-      if (tc < dt)
+      if (ic == 0)
         probe_warm(&pr[c]);
-      else if (fabs(tc - 0.3 * period) < dt * 0.5)
+      else if (ic == period * 3 / 10)
         probe_cool(&pr[c]);
       fprintf(f, ",%.4f", probe_step(&pr[c], dt));
     }
