@@ -294,21 +294,32 @@ static double rise_threshold(const struct dctx *c)
   return fmax(c->p->min_supercool_k, fmax(s, 3.0 * c->res));
 }
 
-/* Index of the lowest smoothed point before a thaw rise, scanning from i;
- * *thaw = 1 when a thaw was found, 0 when the file ended first. */
+/*
+ * End (exclusive) of the freezing branch that starts at i: where the thaw
+ * rise leaves the lowest level of the branch, or the end of the file
+ * (*thaw = 0). A thaw is a rise of THAW_RISE_K (at least the rise
+ * threshold) above the running minimum; the branch ends at the last point
+ * still within the noise of that minimum, so a flat plateau is kept whole
+ * wherever its noise happened to dip lowest.
+ */
 static size_t branch_end(const struct dctx *c, size_t i, double rise,
                          int *thaw)
 {
   size_t rm = i;
   double lim = fmax(rise, THAW_RISE_K);
+  double tol = fmax(4.0 * c->sigma / sqrt(2.0 * (double)half_width(c) + 1.0),
+                    2.0 * c->res);
 
   *thaw = 0;
   for (size_t k = i; k < c->n; k++) {
     if (c->ys[k] < c->ys[rm])
       rm = k;
     if (c->ys[k] > c->ys[rm] + lim) {
+      size_t j = k;
+      while (j > rm && c->ys[j] > c->ys[rm] + tol)
+        j--;
       *thaw = 1;
-      return rm + 1;
+      return j + 1;
     }
   }
   return c->n;
