@@ -247,6 +247,32 @@ Test(detect, no_supercooling_gives_a_slope_break_event, .init = setup)
   curve_release(&c);
 }
 
+/* A pure solvent's flat plateau runs into the thaw at the same level: every
+ * cycle keeps its whole branch (a noise dip once cut the first one short). */
+Test(detect, pure_solvent_cycles_keep_their_branch, .init = setup)
+{
+  struct ff_sim_params p;
+  struct curve c;
+  struct ff_event_list l = FF_EVENT_LIST_INIT;
+
+  water_params(&p, 0.0, 1.0, 1.0);
+  p.cycles = 3;
+  p.freeze_s = 400.0;
+  p.seed = 3;
+  simulate(&p, &c);
+  detect(&c, NULL, &l);
+  cr_assert_eq(l.n, 3, "found %zu events", l.n);
+  for (size_t k = 0; k < l.n; k++) {
+    cr_expect(l.v[k].trusted, "cycle %zu: %s", k + 1, l.v[k].status_reason);
+    cr_expect_gt(l.v[k].branch_end_s - l.v[k].branch_start_s, 300.0,
+                 "cycle %zu branch %.0f-%.0f s", k + 1,
+                 l.v[k].branch_start_s, l.v[k].branch_end_s);
+    cr_expect_float_eq(l.v[k].freezing_point_c, 0.0, AUTO_TOL_K);
+  }
+  ff_event_list_release(&l);
+  curve_release(&c);
+}
+
 /* A single wild reading during liquid cooling (a touched probe) is not a
  * nucleation; the real freeze later is still found. */
 Test(detect, spike_is_not_a_freeze, .init = setup)
