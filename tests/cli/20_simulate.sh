@@ -33,3 +33,17 @@ expect_rc 0; expect_out '"bath_drift_k_s": 0\.0004'
 if [ "$(head -1 "$TMP/bath.csv")" = "time_s,T (C),bath (C)" ]; then ok; else bad "bath column header"; fi
 CASE="simulate --out -"; run "$FF" simulate --out - --json
 expect_rc 0; expect_out '^time_s,T \(C\)$'; expect_err '"true_freezing_point_c": 0'
+# End to end: the importer reads what the simulator writes (time in s, both
+# channels in C, a dropout is a missing value, not a zero).
+"$FF" simulate --bath-channel --dropout 0.1 --seed 11 --out "$TMP/imp.csv" >/dev/null 2>&1
+CASE="simulate output imports"; run "$FF" inspect --json "$TMP/imp.csv"
+expect_rc 0
+if python3 -c "
+import json,sys
+j=json.load(open('$OUT'))
+c=j['columns']
+assert c[0]['role']=='time' and c[0]['time_format']=='seconds'
+assert c[1]['unit']=='C' and c[2]['unit']=='C' and c[2]['name']=='bath (C)'
+n=sum(1 for l in open('$TMP/imp.csv').read().splitlines()[1:] if l.split(',')[1]=='')
+assert n > 50, n
+" 2>/dev/null; then ok; else bad "importer does not read the simulated file as written"; fi
