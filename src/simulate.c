@@ -81,6 +81,7 @@ void ff_sim_params_default(struct ff_sim_params *p)
   p->thaw_k = 3.0;
   p->bath_drift_k_s = 0.0;
   p->bath_channel = 0;
+  p->latent_dcp = 0;
 }
 
 void ff_sim_params_solvent(struct ff_sim_params *p, const struct ff_solvent *s)
@@ -114,7 +115,8 @@ void ff_sim_result_release(struct ff_sim_result *r)
 struct model {
   double ms;        /* solvent mass, g */
   double cpl, cps;  /* J/(g K) */
-  double lat;       /* latent heat L = dH_fus / M, J/g */
+  double lat;       /* latent heat L = dH_fus / M at Tf0, J/g */
+  double dcp;       /* cp_l - cp_s when L varies with T, else 0 */
   double h;         /* heat-transfer coefficient m_s cp_l / tau, W/K */
   double stir;      /* W */
   double tf0;       /* pure-solvent freezing point, C */
@@ -164,9 +166,11 @@ static int rhs(double t, const double y[], double f[], void *params)
   double T = y[0], x = y[1], xc = x < 0.0 ? 0.0 : (x > 1.0 ? 1.0 : x);
   double rate = ice_rate(m, T, x);
   double c = m->ms * ((1.0 - xc) * m->cpl + xc * m->cps);
+  double lat = m->lat + m->dcp * (T - m->tf0);
 
-  /* Energy: C dT/dt = -h (T - T_bath) + P_stir + L m_s dx/dt. */
-  f[0] = (-m->h * (T - bath_at(m, t)) + m->stir + m->lat * m->ms * rate) / c;
+  /* Energy: C dT/dt = -h (T - T_bath) + P_stir + L(T) m_s dx/dt, with
+   * L(T) = L + (cp_l - cp_s)(T - Tf0) (Kirchhoff) or constant L. */
+  f[0] = (-m->h * (T - bath_at(m, t)) + m->stir + lat * m->ms * rate) / c;
   f[1] = rate;
   /* Probe: dTp/dt = (T - Tp) / lag; an ideal probe follows T exactly. */
   f[2] = m->lag > 0.0 ? (T - y[2]) / m->lag : f[0];
@@ -427,7 +431,8 @@ static int cool_and_freeze(struct sim *s, unsigned c)
     /* The closed form is exact; the integrated state agrees to ~1e-6 K,
      * so snap it, and the reported supercooling is the one asked for. The
      * seed crystal's latent heat warms the sample by L x_seed / cp. */
-    s->y[0] = tf_true - u + s->m.lat * ICE_SEED_X / s->m.cpl;
+    s->y[0] = tf_true - u + (s->m.lat + s->m.dcp * (tf_true - u - s->m.tf0))
+                            * ICE_SEED_X / s->m.cpl;
     s->y[1] = ICE_SEED_X;
     if (!(p->probe_lag_s > 0.0))
       s->y[2] = s->y[0];          /* an ideal probe is the sample */
@@ -563,6 +568,8 @@ int ff_simulate_run(const struct ff_sim_params *p, struct ff_sim_result *r,
   s.m.cpl = p->solvent.cp_liq_j_g_k;
   s.m.cps = p->solvent.cp_sol_j_g_k;
   s.m.lat = p->solvent.dh_fus_j_mol / p->solvent.m_g_mol;
+  s.m.dcp = p->latent_dcp ? p->solvent.cp_liq_j_g_k - p->solvent.cp_sol_j_g_k
+                          : 0.0;
   s.m.h = p->solvent_g * p->solvent.cp_liq_j_g_k / p->tau_s;
   s.m.stir = p->stir_w;
   s.m.tf0 = p->solvent.tf_c;

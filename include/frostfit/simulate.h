@@ -45,13 +45,16 @@ struct ff_sim_params {
                                   from the moment it is switched on, K/s */
   int bath_channel;            /* 1: also record a bath probe (a channel
                                   that never freezes) */
+  int latent_dcp;              /* 1: latent heat varies with temperature,
+                                  L(T) = L + (cp_liq - cp_sol)(T - Tf0);
+                                  0: constant L (the cp/L rule's model) */
 };
 /*
  * Defaults: 20 g water (constants as in datasets/solvents.csv), pure, i = 1,
  * start 5 C, bath -6 C, tau 120 s, no stirring heat, supercooling 1.5 K,
  * probe lag 2 s, noise 2 mK, resolution 1 mK, dt 1 s, 1 cycle, freeze 900 s,
  * seed 1, G 0.05 /(K s), x_a 0.0005, thaw bath start + 3 K, no bath
- * drift, no bath channel.
+ * drift, no bath channel, constant latent heat.
  */
 void ff_sim_params_default(struct ff_sim_params *p);
 

@@ -42,6 +42,8 @@ static void usage(FILE *f)
 "  --thaw-k K         thaw bath this far above the start temperature (3)\n"
 "  --bath-drift K/S   the cold bath drifts this much per second (0)\n"
 "  --bath-channel     also record a bath probe column, 'bath (C)'\n"
+"  --latent-dcp       latent heat varies with temperature by cp_liq - cp_sol\n"
+"                     (default: constant, as the cp/L rule assumes)\n"
 "thermometer:\n"
 "  --lag S            probe time constant, s (2)\n"
 "  --noise K          Gaussian noise, standard deviation, K (0.002)\n"
@@ -173,6 +175,7 @@ static json_t *summary_json(const struct ff_sim_params *p,
   ff_json_set_num(par, "thaw_k", p->thaw_k);
   ff_json_set_num(par, "bath_drift_k_s", p->bath_drift_k_s);
   json_object_set_new(par, "bath_channel", json_boolean(p->bath_channel));
+  json_object_set_new(par, "latent_dcp", json_boolean(p->latent_dcp));
   json_object_set_new(par, "cycles", json_integer((json_int_t)p->cycles));
   json_object_set_new(par, "seed", json_integer((json_int_t)p->seed));
   json_object_set_new(root, "parameters", par);
@@ -265,6 +268,10 @@ int ff_cmd_simulate(int argc, char **argv)
     }
     if (strcmp(arg, "--bath-channel") == 0) {
       p.bath_channel = 1;
+      continue;
+    }
+    if (strcmp(arg, "--latent-dcp") == 0) {
+      p.latent_dcp = 1;
       continue;
     }
     if (strncmp(arg, "--", 2) != 0)
