@@ -44,7 +44,8 @@ void ff_sim_water(struct ff_solvent *s)
   snprintf(s->aliases, sizeof s->aliases, "h2o|ice");
   s->tf_c = 0.0;               /* ice point */
   s->kf_k_kg_mol = 1.860;      /* USP <785> */
-  s->dh_fus_j_mol = 6006.77;   /* IAPWS-95/06 via python3-iapws, computed */
+  s->dh_fus_j_mol = 6006.77;   /* IAPWS-95/06 via python3-iapws, computed
+                                  at the normal melting point 273.1525 K */
   s->m_g_mol = 18.015268;      /* IAPWS value */
   s->cp_liq_j_g_k = 4.2194;    /* IAPWS-95 at 273.15 K, computed */
   s->cp_sol_j_g_k = 2.0967;    /* IAPWS-06 at 273.15 K, computed */
