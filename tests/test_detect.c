@@ -227,7 +227,11 @@ Test(detect, freeze_at_end_of_file_is_not_trusted, .init = setup)
   curve_release(&c);
 }
 
-Test(detect, no_supercooling_gives_a_slope_break_event, .init = setup)
+/* No supercooling on a simulated curve (2 s probe lag): the energy balance
+ * still reads it; the two-line break, whose corner the lag and the Newton
+ * curvature round, must either read it or refuse with the reason -- never
+ * give a number far from the truth. */
+Test(detect, no_supercooling_is_read_or_refused, .init = setup)
 {
   struct ff_sim_params p;
   struct curve c;
@@ -238,11 +242,70 @@ Test(detect, no_supercooling_gives_a_slope_break_event, .init = setup)
   detect(&c, NULL, &l);
   cr_assert_eq(l.n, 1);
   cr_expect(l.v[0].flags & FF_FLAG_NO_NUCLEATION);
-  cr_expect(l.v[0].est[FF_METHOD_BREAK].ok);
   cr_expect(l.v[0].trusted, "%s", l.v[0].status_reason);
   cr_expect_float_eq(l.v[0].freezing_point_c, c.r.true_fp_c, AUTO_TOL_K,
                      "got %.5f C (%s)", l.v[0].freezing_point_c,
                      ff_method_name(l.v[0].method));
+  const struct ff_estimate *b = &l.v[0].est[FF_METHOD_BREAK];
+  if (b->ok)
+    cr_expect_float_eq(b->value_c, c.r.true_fp_c, 0.01, "break %.5f C",
+                       b->value_c);
+  else
+    cr_expect(strstr(b->why, "rounded") != NULL, "%s", b->why);
+  ff_event_list_release(&l);
+  curve_release(&c);
+}
+
+/* Two straight segments meeting in a sharp corner (common practice, no
+ * source: the slope-break reading for curves without supercooling): liquid
+ * 3.0 - 0.02 t C down to the corner at t = 170 s, -0.4 C, then the
+ * freezing branch -0.4 - 0.0005 (t - 170) C. The break reads the corner. */
+Test(detect, slope_break_by_construction, .init = setup)
+{
+  enum { N = 601 };
+  double t[N], y[N];
+  struct ff_event_list l = FF_EVENT_LIST_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
+
+  for (int i = 0; i < N; i++) {
+    t[i] = i;
+    y[i] = i <= 170 ? 3.0 - 0.02 * i : -0.40 - 0.0005 * (i - 170);
+  }
+  cr_assert_eq(ff_detect_run(t, y, N, &p, &l, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(l.n, 1);
+  cr_expect(l.v[0].flags & FF_FLAG_NO_NUCLEATION);
+  cr_assert(l.v[0].est[FF_METHOD_BREAK].ok, "%s",
+            l.v[0].est[FF_METHOD_BREAK].why);
+  cr_expect_float_eq(l.v[0].est[FF_METHOD_BREAK].value_c, -0.40, 1e-6,
+                     "break %.9f C", l.v[0].est[FF_METHOD_BREAK].value_c);
+  cr_expect_float_eq(l.v[0].break_time_s, 170.0, 1e-3);
+  ff_event_list_release(&l);
+}
+
+/* A slow probe (45 s time constant) and a short record hide the
+ * nucleation and round the corner: no method can be trusted, and the
+ * event must say so instead of giving the bend's arbitrary reading (it
+ * was 65 mK off before this check existed). */
+Test(detect, lagging_probe_is_not_trusted, .init = setup)
+{
+  struct ff_sim_params p;
+  struct curve c;
+  struct ff_event_list l = FF_EVENT_LIST_INIT;
+
+  water_params(&p, 0.10, 1.866, 1.8);
+  p.probe_lag_s = 45.0;
+  p.freeze_s = 200.0;
+  simulate(&p, &c);
+  detect(&c, NULL, &l);
+  cr_assert_eq(l.n, 1);
+  if (l.v[0].trusted)
+    cr_expect_float_eq(l.v[0].freezing_point_c, c.r.true_fp_c, 0.005,
+                       "trusted reading %.5f C (%s), true %.5f C",
+                       l.v[0].freezing_point_c, ff_method_name(l.v[0].method),
+                       c.r.true_fp_c);
+  else
+    cr_expect(strlen(l.v[0].status_reason) > 0);
   ff_event_list_release(&l);
   curve_release(&c);
 }
