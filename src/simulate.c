@@ -467,6 +467,9 @@ static int cool_and_freeze(struct sim *s, unsigned c)
   return FF_OK;
 }
 
+/* Liquid fraction that starts the thaw of a sample frozen through. */
+#define THAW_SEED_X 1e-3
+
 /* Warm bath on until the ice is gone and the sample is back at start_c;
  * checked at the sampling grid, so the next cycle starts on a sample. */
 static int thaw(struct sim *s)
@@ -482,6 +485,16 @@ static int thaw(struct sim *s)
   for (;;) {
     if ((st = run_until(s, next_sample_t(s))) != FF_OK)
       return st;
+    /* The growth law needs liquid ((1 - x) factor), so a sample frozen
+     * through would never start to melt. Once it is warmer than its
+     * freezing point, melting starts from a film at the warm wall, seeded
+     * as THAW_SEED_X of liquid: a state reset between steps, like the
+     * nucleation seed, not a kink in the equations. */
+    if (s->m.growth && s->y[1] > 1.0 - THAW_SEED_X
+        && s->y[0] > t_eq(&s->m, 1.0 - THAW_SEED_X)) {
+      s->y[1] = 1.0 - THAW_SEED_X;
+      event(s);
+    }
     if (s->y[1] < ICE_GONE_X && s->m.growth) {
       s->y[1] = 0.0;
       s->m.growth = 0;

@@ -617,3 +617,23 @@ Test(simulate, recalescence_obeys_the_enthalpy_balance)
     ff_sim_result_release(&r);
   }
 }
+
+/* A pure solvent frozen right through (bath far below Tf, long freeze)
+ * must still thaw for the next cycle: the growth law needs liquid, and the
+ * thaw seeds it (common practice, no source: a frozen tube melts from the
+ * wall). Once, the second cycle never came ("did not thaw"). */
+Test(simulate, frozen_through_sample_thaws_for_the_next_cycle)
+{
+  struct ff_sim_params p;
+  struct ff_sim_result r = FF_SIM_RESULT_INIT;
+
+  ff_sim_params_default(&p);
+  cyclohexane(&p);
+  p.cycles = 2;
+  p.freeze_s = 500.0;
+  p.bath_c = 0.04;
+  run_ok(&p, &r);
+  cr_assert_eq(r.n_cycles, 2);
+  cr_expect_gt(r.nucleation_t_s[1], r.nucleation_t_s[0] + 500.0);
+  ff_sim_result_release(&r);
+}
