@@ -714,7 +714,11 @@ static int fig_overview(struct ff_plot_set *ps, const struct ff_series *s,
     const struct ff_series_solute *g = &s->solutes[k];
     if (g->status != FF_OK || !g->reg.has_preferred)
       continue;
+    /* A fixed-limit model (nu fixed, association) says nothing about the
+     * limit: show the free-limit fit the particle count was read from. */
     const struct ff_fit *fit = &g->reg.fit[g->reg.preferred];
+    if (fit->limit_fixed && g->reg.has_particles)
+      fit = &g->reg.fit[g->reg.particles_model];
     lim[nl++] = (struct ff_plot_limit){
       g->solute, g->particles_known ? (double)g->particles.nu : NAN,
       fit->i_limit, fit->ci_limit[0], fit->ci_limit[1],
