@@ -1,5 +1,6 @@
 /* plot_io.c - plot stage: figure sets, folders, atomic writes, finding gnuplot. */
 #include <errno.h>
+#include <signal.h>
 #include <stdlib.h>
 #include <string.h>
 #include <unistd.h>
@@ -58,6 +59,7 @@ int ff_plot_write_atomic(const char *dir, const char *name, const void *data,
   char *final = ff_plot_join(dir, name);
   char *tmp = ff_plot_join(dir, ".ff-tmp.XXXXXX");
   const char *p = data;
+  sigset_t hold, old;
   int fd, err = 0;
 
   if (final == NULL || tmp == NULL) {
@@ -65,10 +67,19 @@ int ff_plot_write_atomic(const char *dir, const char *name, const void *data,
     free(tmp);
     return ff_diag_set(d, FF_EIO, NULL, "out of memory");
   }
+  /* Ctrl-C, kill, hangup and quit wait while the temporary file exists,
+   * so none is left behind; they take effect once it is renamed or gone. */
+  sigemptyset(&hold);
+  sigaddset(&hold, SIGINT);
+  sigaddset(&hold, SIGTERM);
+  sigaddset(&hold, SIGHUP);
+  sigaddset(&hold, SIGQUIT);
+  sigprocmask(SIG_BLOCK, &hold, &old);
   fd = mkstemp(tmp);
   if (fd < 0) {
     ff_diag_set(d, FF_EIO, NULL, "cannot write in '%s': %s", dir,
                 strerror(errno));
+    sigprocmask(SIG_SETMASK, &old, NULL);
     free(final);
     free(tmp);
     return FF_EIO;
@@ -92,11 +103,12 @@ int ff_plot_write_atomic(const char *dir, const char *name, const void *data,
     err = errno;
   if (err == 0 && rename(tmp, final) != 0)
     err = errno;
-  if (err != 0) {
+  if (err != 0)
     unlink(tmp);
+  sigprocmask(SIG_SETMASK, &old, NULL);
+  if (err != 0)
     ff_diag_set(d, FF_EIO, NULL, "cannot write '%s': %s", final,
                 strerror(err));
-  }
   free(final);
   free(tmp);
   return err != 0 ? FF_EIO : FF_OK;

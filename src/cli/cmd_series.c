@@ -3,9 +3,11 @@
 #include <errno.h>
 #include <limits.h>
 #include <math.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
@@ -429,8 +431,17 @@ static int same_file(const char *a, const char *b)
 static int is_input(const struct opts *o, const struct ff_sheet *sh,
                     const char *target)
 {
+  char path[4096];
+
   if (same_file(target, o->sheet)
       || (o->solvents != NULL && same_file(target, o->solvents)))
+    return 1;
+  /* The bundled tables (load_tables() reads both). */
+  snprintf(path, sizeof path, "%s/solvents.csv", ff_cli_datadir());
+  if (same_file(target, path))
+    return 1;
+  snprintf(path, sizeof path, "%s/atomic_weights.csv", ff_cli_datadir());
+  if (same_file(target, path))
     return 1;
   for (size_t k = 0; k < sh->n; k++)
     if (same_file(target, sh->row[k].path))
@@ -438,30 +449,56 @@ static int is_input(const struct opts *o, const struct ff_sheet *sh,
   return 0;
 }
 
+/*
+ * Keeps Ctrl-C, kill, hangup and quit waiting while a temporary file
+ * exists, so that none is left behind: such a signal takes effect (with
+ * its default action) as soon as the file is renamed or removed.
+ */
+static void hold_signals(sigset_t *old)
+{
+  sigset_t set;
+
+  sigemptyset(&set);
+  sigaddset(&set, SIGINT);
+  sigaddset(&set, SIGTERM);
+  sigaddset(&set, SIGHUP);
+  sigaddset(&set, SIGQUIT);
+  sigprocmask(SIG_BLOCK, &set, old);
+}
+
 static int write_csv(const struct ff_series *s, const char *path)
 {
   char tmp[PATH_MAX + 32];
   const char *slash = strrchr(path, '/');
-  int fd;
+  sigset_t old;
+  int fd, n;
   FILE *f;
 
   if (slash != NULL)
-    snprintf(tmp, sizeof tmp, "%.*s/.frostfit-csv-XXXXXX",
-             (int)(slash - path), path);
+    n = snprintf(tmp, sizeof tmp, "%.*s/.frostfit-csv-XXXXXX",
+                 (int)(slash - path), path);
   else
-    snprintf(tmp, sizeof tmp, ".frostfit-csv-XXXXXX");
+    n = snprintf(tmp, sizeof tmp, ".frostfit-csv-XXXXXX");
+  if (n < 0 || (size_t)n >= sizeof tmp) {
+    ff_cli_msg("cannot write '%s': %s", path, strerror(ENAMETOOLONG));
+    return FF_EIO;
+  }
+  hold_signals(&old);
   fd = mkstemp(tmp);
   if (fd < 0) {
     ff_cli_msg("cannot write '%s': %s", path, strerror(errno));
+    sigprocmask(SIG_SETMASK, &old, NULL);
     return FF_EIO;
   }
   f = fdopen(fd, "w");
   if (f == NULL) {
+    ff_cli_msg("cannot write '%s': %s", path, strerror(errno));
     close(fd);
     unlink(tmp);
-    ff_cli_msg("cannot write '%s': %s", path, strerror(errno));
+    sigprocmask(SIG_SETMASK, &old, NULL);
     return FF_EIO;
   }
+  errno = EIO;                 /* what a failed write leaves unexplained */
   int bad = ff_series_write_csv(s, f) != 0;
   bad |= fclose(f) != 0;
   if (!bad)
@@ -469,9 +506,58 @@ static int write_csv(const struct ff_series *s, const char *path)
   if (bad || rename(tmp, path) != 0) {
     ff_cli_msg("cannot write '%s': %s", path, strerror(errno));
     unlink(tmp);
+    sigprocmask(SIG_SETMASK, &old, NULL);
     return FF_EIO;
   }
+  sigprocmask(SIG_SETMASK, &old, NULL);
   return FF_OK;
+}
+
+/*
+ * An input inside the figure folder named like a figure file would be
+ * replaced by it: stems are run_*, solute_*, unknown_*, overview (chosen
+ * below) and render (the plot stage's driver), with .gp, .dat, .png, .svg
+ * or .pdf. Returns that input's path, or NULL.
+ */
+static const char *figure_clash(const struct opts *o, const struct ff_sheet *sh)
+{
+  static const char *const stems[] = { "run_", "solute_", "unknown_",
+                                       "overview", "render" };
+  static const char *const exts[] = { ".gp", ".dat", ".png", ".svg", ".pdf" };
+  struct stat fig, in;
+  size_t n_in = sh->n + 2;
+
+  if (stat(o->figures, &fig) != 0)
+    return NULL;               /* a new folder holds no input */
+  for (size_t k = 0; k < n_in; k++) {
+    const char *p = k < sh->n ? sh->row[k].path
+                    : k == sh->n ? o->sheet : o->solvents;
+    char dir[PATH_MAX];
+    const char *base, *dot;
+    int stem = 0, ext = 0;
+
+    if (p == NULL)
+      continue;
+    base = strrchr(p, '/');
+    if (base == NULL) {
+      strcpy(dir, ".");
+      base = p;
+    } else {
+      snprintf(dir, sizeof dir, "%.*s", (int)(base - p + 1), p);
+      base++;
+    }
+    if (stat(dir, &in) != 0 || in.st_dev != fig.st_dev
+        || in.st_ino != fig.st_ino)
+      continue;
+    dot = strrchr(base, '.');
+    for (size_t j = 0; j < sizeof stems / sizeof stems[0]; j++)
+      stem |= strncasecmp(base, stems[j], strlen(stems[j])) == 0;
+    for (size_t j = 0; dot != NULL && j < sizeof exts / sizeof exts[0]; j++)
+      ext |= strcasecmp(dot, exts[j]) == 0;
+    if (stem && ext)
+      return p;
+  }
+  return NULL;
 }
 
 /* ---- figures (plot.h) ---- */
@@ -820,6 +906,7 @@ int ff_cmd_series(int argc, char **argv)
   struct ff_series_opts so = FF_SERIES_OPTS_DEFAULT;
   struct ff_diag d = FF_DIAG_INIT;
   char buf[1200];
+  const char *clash;
   int st, sheet_st, out_st = FF_OK;
 
   st = parse(argc, argv, &o);
@@ -842,6 +929,12 @@ int ff_cmd_series(int argc, char **argv)
   if (o.csv != NULL && is_input(&o, &sh, o.csv)) {
     st = ff_cli_usage(CMD, "--csv '%s' is one of the inputs; refusing to "
                       "overwrite it", o.csv);
+    goto done;
+  }
+  if (o.figures != NULL && (clash = figure_clash(&o, &sh)) != NULL) {
+    st = ff_cli_usage(CMD, "--figures '%s' holds the input '%s', which a "
+                      "figure file could replace; choose another folder",
+                      o.figures, clash);
     goto done;
   }
 

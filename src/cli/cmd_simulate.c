@@ -1,10 +1,14 @@
 /* cli/cmd_simulate.c - 'frostfit simulate': a synthetic cooling curve from
  * the physical model, and the true freezing point behind it. */
 #include <errno.h>
+#include <limits.h>
 #include <math.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
+#include <sys/stat.h>
 
 #include "cli.h"
 #include "frostfit/json.h"
@@ -218,6 +222,94 @@ static void summary_text(FILE *f, const struct ff_sim_params *p,
   }
 }
 
+/* ---- the CSV file: atomic, never over an input ---- */
+
+static int same_file(const char *a, const char *b)
+{
+  struct stat sa, sb;
+
+  return stat(a, &sa) == 0 && stat(b, &sb) == 0 && sa.st_dev == sb.st_dev
+         && sa.st_ino == sb.st_ino;
+}
+
+/* The tables a run may read: the user's and the bundled solvent table. */
+static int is_input(const char *out, const char *user_file)
+{
+  char path[4096];
+
+  snprintf(path, sizeof path, "%s/solvents.csv", ff_cli_datadir());
+  return same_file(out, path)
+         || (user_file != NULL && same_file(out, user_file));
+}
+
+/*
+ * Keeps Ctrl-C, kill, hangup and quit waiting while a temporary file
+ * exists, so that none is left behind: such a signal takes effect (with
+ * its default action) as soon as the file is renamed or removed.
+ */
+static void hold_signals(sigset_t *old)
+{
+  sigset_t s;
+
+  sigemptyset(&s);
+  sigaddset(&s, SIGINT);
+  sigaddset(&s, SIGTERM);
+  sigaddset(&s, SIGHUP);
+  sigaddset(&s, SIGQUIT);
+  sigprocmask(SIG_BLOCK, &s, old);
+}
+
+/*
+ * Writes the curve to a temporary file beside out and renames it over out
+ * only when complete: a failed or interrupted run leaves out as it was.
+ */
+static int write_out(const struct ff_sim_result *r, const char *out,
+                     struct ff_diag *d)
+{
+  char tmp[PATH_MAX + 32];
+  const char *slash = strrchr(out, '/');
+  sigset_t old;
+  FILE *f;
+  int fd, st, n;
+
+  if (slash != NULL)
+    n = snprintf(tmp, sizeof tmp, "%.*s/.frostfit-sim-XXXXXX",
+                 (int)(slash - out), out);
+  else
+    n = snprintf(tmp, sizeof tmp, ".frostfit-sim-XXXXXX");
+  if (n < 0 || (size_t)n >= sizeof tmp)
+    return ff_diag_set(d, FF_EIO, NULL, "cannot write '%s': %s", out,
+                       strerror(ENAMETOOLONG));
+  hold_signals(&old);
+  fd = mkstemp(tmp);
+  if (fd < 0 || (f = fdopen(fd, "w")) == NULL) {
+    st = ff_diag_set(d, FF_EIO, NULL, "cannot write '%s': %s", out,
+                     strerror(errno));
+    if (fd >= 0) {
+      close(fd);
+      unlink(tmp);
+    }
+    sigprocmask(SIG_SETMASK, &old, NULL);
+    return st;
+  }
+  /* mkstemp makes 0600; a data file is an ordinary document. */
+  if (fchmod(fd, 0644) != 0)
+    st = ff_diag_set(d, FF_EIO, NULL, "cannot write '%s': %s", out,
+                     strerror(errno));
+  else
+    st = ff_simulate_write_csv(r, f, d);
+  if (fclose(f) != 0 && st == FF_OK)
+    st = ff_diag_set(d, FF_EIO, NULL, "cannot write '%s': %s", out,
+                     strerror(errno));
+  if (st == FF_OK && rename(tmp, out) != 0)
+    st = ff_diag_set(d, FF_EIO, NULL, "cannot write '%s': %s", out,
+                     strerror(errno));
+  if (st != FF_OK)
+    unlink(tmp);
+  sigprocmask(SIG_SETMASK, &old, NULL);
+  return st;
+}
+
 int ff_cmd_simulate(int argc, char **argv)
 {
   struct ff_sim_params p;
@@ -226,7 +318,7 @@ int ff_cmd_simulate(int argc, char **argv)
   const char *solvent = NULL, *user_file = NULL, *out = NULL;
   double cycles = 1, seed = 1;
   int json = 0, st;
-  FILE *csv = stdout, *sum = stdout;
+  FILE *sum = stdout;
 
   ff_sim_params_default(&p);
   struct numopt opts[] = {
@@ -338,24 +430,20 @@ int ff_cmd_simulate(int argc, char **argv)
     }
   }
 
+  if (out != NULL && is_input(out, user_file))
+    return ff_cli_usage(CMD, "--out '%s' is a solvent table frostfit "
+                        "reads; refusing to overwrite it", out);
+
   if ((st = ff_simulate_run(&p, &r, &d)) != FF_OK) {
     ff_cli_fail(&d);
     return st;
   }
-  if (out != NULL) {
-    csv = fopen(out, "w");
-    if (csv == NULL) {
-      ff_cli_msg("cannot write '%s': %s", out, strerror(errno));
-      ff_sim_result_release(&r);
-      return FF_EIO;
-    }
-  } else {
+  if (out != NULL)
+    st = write_out(&r, out, &d);
+  else {
     sum = stderr;
+    st = ff_simulate_write_csv(&r, stdout, &d);
   }
-  st = ff_simulate_write_csv(&r, csv, &d);
-  if (out != NULL && fclose(csv) != 0 && st == FF_OK)
-    st = ff_diag_set(&d, FF_EIO, NULL, "cannot write '%s': %s", out,
-                     strerror(errno));
   if (st != FF_OK) {
     ff_sim_result_release(&r);
     return ff_cli_fail(&d);
