@@ -267,6 +267,8 @@ static int smooth(struct dctx *c)
     for (size_t j = a; j < b; j++)
       s += c->y[j];
     c->ys[i] = s / (double)(b - a);
+    if (isnan(c->ys[i]))
+      c->ys_nan = 1;
   }
   return 0;
 }
@@ -764,17 +766,69 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
 /* Scans [from, n) for the next recalescence; returns 1 with m (minimum) and
  * pk (peak), or 0 when there is none. Rejected rises (warm-ups) are skipped
  * from their top. */
+/*
+ * Minimum of ys over a sliding window [lo, j] in O(1) amortised per step:
+ * a deque of indices whose values increase from front to back (Lemire's
+ * monotone wedge). Only the value is needed to test a rise; the index is
+ * then found by a scan of the window, which a hit makes rare.
+ */
+struct slide_min {
+  size_t *q, head, tail, cap, next;  /* q[head, tail); next index to add */
+};
+
+static int slide_add(struct slide_min *s, const double *ys, size_t j)
+{
+  for (; s->next <= j; s->next++) {
+    while (s->tail > s->head && ys[s->q[s->tail - 1]] >= ys[s->next])
+      s->tail--;
+    if (s->tail == s->cap) {
+      if (s->head > 0) {
+        memmove(s->q, s->q + s->head, (s->tail - s->head) * sizeof *s->q);
+        s->tail -= s->head;
+        s->head = 0;
+      } else {
+        size_t cap = s->cap ? 2 * s->cap : 1024;
+        size_t *q = realloc(s->q, cap * sizeof *q);
+        if (q == NULL)
+          return -1;
+        s->q = q;
+        s->cap = cap;
+      }
+    }
+    s->q[s->tail++] = s->next;
+  }
+  return 0;
+}
+
+static double slide_min_at(struct slide_min *s, const double *ys, size_t lo)
+{
+  while (s->head < s->tail && s->q[s->head] < lo)
+    s->head++;
+  return s->head < s->tail ? ys[s->q[s->head]] : NAN;  /* NaN: scan */
+}
+
 static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
                              size_t *pk)
 {
   const struct ff_detect_params *p = c->p;
   double rise = rise_threshold(c);
   size_t lo = from;
+  struct slide_min sm = { .next = from };
+  int found = 0, scan = c->ys_nan;
 
   for (size_t j = from; j < c->n; j++) {
     size_t mi = j;
     while (c->t[j] - c->t[lo] > p->max_rise_s)
       lo++;
+    /* Without NaN (a sum that overflowed in the smoothing) the window's
+     * minimum value decides; the scan below picks the same index as
+     * always. */
+    if (!scan) {
+      if (slide_add(&sm, c->ys, j) != 0)
+        scan = 1;              /* out of memory: fall back to the scan */
+      else if (c->ys[j] - slide_min_at(&sm, c->ys, lo) < rise)
+        continue;
+    }
     for (size_t k = lo; k <= j; k++)
       if (c->ys[k] < c->ys[mi])
         mi = k;
@@ -816,6 +870,8 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
         /* Skip this rise: carry on from its top. */
         j = top;
         lo = top;
+        sm.head = sm.tail = 0;
+        sm.next = top;
         continue;
       }
       for (k = j; k < top; k++)
@@ -823,10 +879,12 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
           break;
       *m = mi;
       *pk = k;
-      return 1;
+      found = 1;
+      break;
     }
   }
-  return 0;
+  free(sm.q);
+  return found;
 }
 
 int ff_detect_run(const double *t_s, const double *temp_c, size_t n,

@@ -10,6 +10,7 @@ struct dctx {
   const double *t, *y;
   size_t n;
   double *ys;                  /* lightly smoothed copy (owned) */
+  int ys_nan;                  /* ys holds a NaN (overflowed sums) */
   double sigma;                /* noise sd of one reading, K */
   double res;                  /* resolution used, K (0 = none seen) */
   double dt;                   /* median sampling interval, s */
@@ -47,6 +48,6 @@ void dd_break(const struct dctx *c, struct ff_event *e, size_t l0,
 void dd_model(const struct dctx *c, struct ff_event *e, size_t s0,
               size_t i0, size_t i1);
 
-double dd_median(double *v, size_t n);  /* sorts v */
+double dd_median(double *v, size_t n);  /* reorders v */
 
 #endif /* FF_DETECT_IMPL_H */
