@@ -2,9 +2,11 @@
  * event of every channel of a logger CSV (import, then detect). */
 #include <limits.h>
 #include <math.h>
+#include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include "cli.h"
 #include "frostfit/detect.h"
@@ -62,8 +64,95 @@ static void help(void)
 struct chan {
   size_t index;                    /* into ds->ch */
   struct ff_event_list ev;
+  int status;                      /* ff_detect_run's return */
   char note[600];                  /* "" when events were found */
 };
+
+/* The channels shared by the detection workers: each takes the next
+ * channel not yet taken; the dataset is only read. */
+struct detect_pool {
+  const struct ff_dataset *ds;
+  const struct ff_detect_params *dp;
+  struct chan *ch;
+  size_t nch, next;
+  pthread_mutex_t lock;
+};
+
+/* Detection of one channel. A channel with no missing value is analysed
+ * in the dataset's own arrays; otherwise it is compacted into the worker's
+ * buffers *t, *y (allocated on first need, ds->n values each). */
+static void detect_channel(const struct ff_dataset *ds,
+                           const struct ff_detect_params *dp,
+                           struct chan *c, double **t, double **y)
+{
+  const struct ff_channel *fc = &ds->ch[c->index];
+  struct ff_diag dd = FF_DIAG_INIT;
+  const double *tx = ds->t_s, *yx = fc->temp_c;
+  size_t m = ds->n;
+
+  if (fc->n_missing > 0) {
+    if (*t == NULL)
+      *t = malloc((ds->n ? ds->n : 1) * sizeof **t);
+    if (*y == NULL)
+      *y = malloc((ds->n ? ds->n : 1) * sizeof **y);
+    if (*t == NULL || *y == NULL) {
+      c->status = FF_EIO;
+      snprintf(c->note, sizeof c->note, "out of memory");
+      return;
+    }
+    m = ff_dataset_channel_xy(ds, c->index, *t, *y);
+    tx = *t;
+    yx = *y;
+  }
+  c->status = ff_detect_run(tx, yx, m, dp, &c->ev, &dd);
+  if (c->status != FF_OK)
+    snprintf(c->note, sizeof c->note, "%s", dd.msg);
+}
+
+static void *detect_worker(void *arg)
+{
+  struct detect_pool *pl = arg;
+  double *t = NULL, *y = NULL;
+
+  for (;;) {
+    size_t k;
+    pthread_mutex_lock(&pl->lock);
+    k = pl->next++;
+    pthread_mutex_unlock(&pl->lock);
+    if (k >= pl->nch)
+      break;
+    detect_channel(pl->ds, pl->dp, &pl->ch[k], &t, &y);
+  }
+  free(t);
+  free(y);
+  return NULL;
+}
+
+/* Every channel's detection, on min(channels, online CPUs) threads; the
+ * results land in ch[] in channel order whatever finishes first. */
+static void detect_all(const struct ff_dataset *ds,
+                       const struct ff_detect_params *dp, struct chan *ch,
+                       size_t nch)
+{
+  struct detect_pool pl = { .ds = ds, .dp = dp, .ch = ch, .nch = nch };
+  pthread_t th[64];
+  long cpus = sysconf(_SC_NPROCESSORS_ONLN);
+  size_t nth = cpus > 1 ? (size_t)cpus : 1, started = 0;
+
+  if (nth > nch)
+    nth = nch;
+  if (nth > sizeof th / sizeof th[0])
+    nth = sizeof th / sizeof th[0];
+  pthread_mutex_init(&pl.lock, NULL);
+  /* The calling thread is one of the workers. */
+  for (size_t i = 1; i < nth; i++)
+    if (pthread_create(&th[started], NULL, detect_worker, &pl) == 0)
+      started++;
+  detect_worker(&pl);
+  for (size_t i = 0; i < started; i++)
+    pthread_join(th[i], NULL);
+  pthread_mutex_destroy(&pl.lock);
+}
 
 /* x with prec decimals ('e': exponent form), "-" when absent. */
 static const char *fmt_num(char *buf, size_t n, double x, int prec, char f)
@@ -414,9 +503,7 @@ int ff_cmd_point(int argc, char **argv)
     return ff_cli_fail(&d);
   }
   ch = calloc(ds->n_channels ? ds->n_channels : 1, sizeof *ch);
-  t = malloc((ds->n ? ds->n : 1) * sizeof *t);
-  y = malloc((ds->n ? ds->n : 1) * sizeof *y);
-  if (ch == NULL || t == NULL || y == NULL) {
+  if (ch == NULL) {
     ff_cli_msg("out of memory");
     st = FF_EIO;
     goto out;
@@ -434,17 +521,16 @@ int ff_cmd_point(int argc, char **argv)
       ch[k].index = k;
     nch = ds->n_channels;
   }
+  detect_all(ds, &dp, ch, nch);
   for (size_t c = 0; c < nch; c++) {
-    size_t m = ff_dataset_channel_xy(ds, ch[c].index, t, y);
-    struct ff_diag dd = FF_DIAG_INIT;
-    int r = ff_detect_run(t, y, m, &dp, &ch[c].ev, &dd);
-    if (r == FF_EIO) {
+    size_t m = 0;
+    if (ch[c].status == FF_EIO) {
+      struct ff_diag dd = FF_DIAG_INIT;
+      ff_diag_set(&dd, FF_EIO, NULL, "%s", ch[c].note);
       st = ff_cli_fail(&dd);
       goto out;
     }
-    if (r != FF_OK)
-      snprintf(ch[c].note, sizeof ch[c].note, "%s", dd.msg);
-    else if (ch[c].ev.n == 0)
+    if (ch[c].status == FF_OK && ch[c].ev.n == 0)
       snprintf(ch[c].note, sizeof ch[c].note, "no freeze found: no "
                "recalescence and no slope break (a bath or room probe?)");
     for (size_t i = 0; i < ch[c].ev.n; i++) {
@@ -454,6 +540,17 @@ int ff_cmd_point(int argc, char **argv)
       trusted++;
       if (fig_dir == NULL)
         continue;
+      if (t == NULL) {
+        t = malloc((ds->n ? ds->n : 1) * sizeof *t);
+        y = malloc((ds->n ? ds->n : 1) * sizeof *y);
+        if (t == NULL || y == NULL) {
+          ff_cli_msg("out of memory");
+          st = FF_EIO;
+          goto out;
+        }
+      }
+      if (m == 0)
+        m = ff_dataset_channel_xy(ds, ch[c].index, t, y);
       if (ps == NULL) {
         struct ff_diag pd = FF_DIAG_INIT;
         po.plots_dir = ff_plot_dir_beside(ff_cli_datadir(), plots,
