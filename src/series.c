@@ -3,11 +3,13 @@
 #include "frostfit/series.h"
 
 #include <math.h>
+#include <pthread.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <strings.h>
+#include <unistd.h>
 
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
@@ -45,12 +47,63 @@ void series_fail(const struct ff_sheet *sh, struct ff_series_run *r, int col,
   ff_diag_set(&r->diag, st, &at, "run '%s': %s", row->run, text);
 }
 
+/* ---- the per-run work on both cores ---- */
+
+struct pool {
+  void (*fn)(void *ctx, size_t i);
+  void *ctx;
+  size_t n, next;
+  pthread_mutex_t lock;
+};
+
+static void *pool_worker(void *arg)
+{
+  struct pool *pl = arg;
+
+  for (;;) {
+    size_t i;
+    pthread_mutex_lock(&pl->lock);
+    i = pl->next++;
+    pthread_mutex_unlock(&pl->lock);
+    if (i >= pl->n)
+      return NULL;
+    pl->fn(pl->ctx, i);
+  }
+}
+
+/* fn(ctx, i) for i in [0, n), on min(n, online CPUs) threads (the caller
+ * is one of them). Each i touches only its own item, so the results do
+ * not depend on which thread ran it or when. */
+static void parallel_for(size_t n, void (*fn)(void *ctx, size_t i),
+                         void *ctx)
+{
+  struct pool pl = { .fn = fn, .ctx = ctx, .n = n };
+  pthread_t th[64];
+  long cpus = sysconf(_SC_NPROCESSORS_ONLN);
+  size_t nth = cpus > 1 ? (size_t)cpus : 1, started = 0;
+
+  if (nth > n)
+    nth = n;
+  if (nth > sizeof th / sizeof th[0])
+    nth = sizeof th / sizeof th[0];
+  pthread_mutex_init(&pl.lock, NULL);
+  for (size_t i = 1; i < nth; i++)
+    if (pthread_create(&th[started], NULL, pool_worker, &pl) == 0)
+      started++;
+  pool_worker(&pl);
+  for (size_t i = 0; i < started; i++)
+    pthread_join(th[i], NULL);
+  pthread_mutex_destroy(&pl.lock);
+}
+
 /* ---- data files and freeze events, each read once ---- */
 
 struct channel_cache {
   size_t ds;
   long ch;
   enum ff_method method;
+  struct ff_detect_params p;  /* from the first run that asked */
+  int pending;                /* registered, not detected yet */
   int status;
   struct ff_diag diag;
   struct ff_event_list ev;
@@ -59,6 +112,8 @@ struct channel_cache {
 struct file_cache {
   char path[1600];
   long ds;                    /* index into out->ds, -1 when it failed */
+  struct ff_dataset *read;    /* imported ahead, not yet in out->ds */
+  int pending;                /* registered, not imported yet */
   struct ff_diag diag;
 };
 
@@ -71,6 +126,8 @@ struct caches {
 
 static void caches_release(struct caches *k)
 {
+  for (size_t i = 0; i < k->nf; i++)
+    ff_dataset_free(k->f[i].read);
   for (size_t i = 0; i < k->nc; i++)
     ff_event_list_release(&k->c[i].ev);
   free(k->c);
@@ -79,22 +136,20 @@ static void caches_release(struct caches *k)
 
 /* The dataset of path, reading it the first time. -1 with *why set when
  * the file cannot be used; -2 when out of memory. */
-static long dataset_of(struct ff_series *out, struct caches *k,
-                       const char *path, const struct ff_diag **why)
+/* The cache entry of path, new (pending, not read) the first time; NULL
+ * when out of memory. */
+static struct file_cache *file_entry(struct caches *k, const char *path)
 {
-  struct ff_import_opts io = FF_IMPORT_OPTS_DEFAULT;
   struct file_cache *fc;
 
   for (size_t i = 0; i < k->nf; i++)
-    if (strcmp(k->f[i].path, path) == 0) {
-      *why = &k->f[i].diag;
-      return k->f[i].ds;
-    }
+    if (strcmp(k->f[i].path, path) == 0)
+      return &k->f[i];
   if (k->nf == k->capf) {
     size_t cap = k->capf ? 2 * k->capf : 8;
     struct file_cache *v = realloc(k->f, cap * sizeof *v);
     if (v == NULL)
-      return -2;
+      return NULL;
     k->f = v;
     k->capf = cap;
   }
@@ -102,32 +157,55 @@ static long dataset_of(struct ff_series *out, struct caches *k,
   memset(fc, 0, sizeof *fc);
   snprintf(fc->path, sizeof fc->path, "%s", path);
   fc->ds = -1;
-  *why = &fc->diag;
-  struct ff_dataset *ds = ff_import_file(path, &io, &fc->diag);
-  if (ds == NULL)
-    return -1;                /* the runs of this file fail with its reason */
-  struct ff_dataset **v = realloc(out->ds, (out->n_ds + 1) * sizeof *v);
-  if (v == NULL) {
-    ff_dataset_free(ds);
+  fc->pending = 1;
+  return fc;
+}
+
+/* Imports a pending entry (a worker may do it: it touches only fc). */
+static void file_read(struct file_cache *fc)
+{
+  struct ff_import_opts io = FF_IMPORT_OPTS_DEFAULT;
+
+  fc->read = ff_import_file(fc->path, &io, &fc->diag);
+  fc->pending = 0;
+}
+
+/* The dataset of path, reading it the first time. -1 with *why set when
+ * the file cannot be used; -2 when out of memory. Datasets join out->ds
+ * in the order the runs first ask for them, whenever they were read. */
+static long dataset_of(struct ff_series *out, struct caches *k,
+                       const char *path, const struct ff_diag **why)
+{
+  struct file_cache *fc = file_entry(k, path);
+  struct ff_dataset **v;
+
+  if (fc == NULL)
     return -2;
-  }
+  *why = &fc->diag;
+  if (fc->pending)
+    file_read(fc);
+  if (fc->read == NULL)
+    return fc->ds;            /* -1: the runs of this file fail with its
+                                 reason; or its index, already joined */
+  v = realloc(out->ds, (out->n_ds + 1) * sizeof *v);
+  if (v == NULL)
+    return -2;                /* fc->read is freed with the caches */
   out->ds = v;
-  out->ds[out->n_ds] = ds;
+  out->ds[out->n_ds] = fc->read;
+  fc->read = NULL;
   fc->ds = (long)out->n_ds++;
   return fc->ds;
 }
 
-/* The freeze events of one channel, detected the first time. */
-static struct channel_cache *events_of(struct ff_series *out, struct caches *k,
-                                       size_t ds, long ch,
-                                       const struct ff_solvent *solvent,
-                                       double res_k, enum ff_method method)
+/* The cache entry of one channel, new (pending, with the asking run's
+ * detection parameters) the first time; NULL when out of memory. */
+static struct channel_cache *channel_entry(struct caches *k, size_t ds,
+                                           long ch,
+                                           const struct ff_solvent *solvent,
+                                           double res_k, enum ff_method method)
 {
   struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
-  const struct ff_dataset *set = out->ds[ds];
   struct channel_cache *cc;
-  double *t, *y;
-  size_t n;
 
   for (size_t i = 0; i < k->nc; i++)
     if (k->c[i].ds == ds && k->c[i].ch == ch && k->c[i].method == method)
@@ -145,22 +223,56 @@ static struct channel_cache *events_of(struct ff_series *out, struct caches *k,
   cc->ds = ds;
   cc->ch = ch;
   cc->method = method;
-  t = malloc((set->n + 1) * sizeof *t);
-  y = malloc((set->n + 1) * sizeof *y);
-  if (t == NULL || y == NULL) {
-    free(t);
-    free(y);
-    k->nc--;
-    return NULL;
-  }
-  n = ff_dataset_channel_xy(set, (size_t)ch, t, y);
   p.solvent = solvent;
   p.method = method;
   if (isfinite(res_k) && res_k > 0)
     p.resolution_k = res_k;
-  cc->status = ff_detect_run(t, y, n, &p, &cc->ev, &cc->diag);
+  cc->p = p;
+  cc->pending = 1;
+  return cc;
+}
+
+/* Detects a pending entry (a worker may do it: it reads the dataset and
+ * writes only cc). A channel with no missing value is analysed in the
+ * dataset's arrays, otherwise in a compacted copy. */
+static void channel_detect(const struct ff_dataset *set,
+                           struct channel_cache *cc)
+{
+  const double *tx = set->t_s, *yx = set->ch[cc->ch].temp_c;
+  double *t = NULL, *y = NULL;
+  size_t n = set->n;
+
+  cc->pending = 0;
+  if (set->ch[cc->ch].n_missing > 0) {
+    t = malloc((set->n + 1) * sizeof *t);
+    y = malloc((set->n + 1) * sizeof *y);
+    if (t == NULL || y == NULL) {
+      free(t);
+      free(y);
+      cc->status = ff_diag_set(&cc->diag, FF_EIO, NULL, "out of memory");
+      return;
+    }
+    n = ff_dataset_channel_xy(set, (size_t)cc->ch, t, y);
+    tx = t;
+    yx = y;
+  }
+  cc->status = ff_detect_run(tx, yx, n, &cc->p, &cc->ev, &cc->diag);
   free(t);
   free(y);
+}
+
+/* The freeze events of one channel, detected the first time. NULL when
+ * out of memory. */
+static struct channel_cache *events_of(struct ff_series *out, struct caches *k,
+                                       size_t ds, long ch,
+                                       const struct ff_solvent *solvent,
+                                       double res_k, enum ff_method method)
+{
+  struct channel_cache *cc = channel_entry(k, ds, ch, solvent, res_k,
+                                           method);
+
+  if (cc != NULL && cc->pending)
+    channel_detect(out->ds[ds], cc);
   return cc;
 }
 
@@ -232,6 +344,66 @@ static int freezing_point(struct ff_series *out, struct caches *k,
   r->u_tf_k = r->event.u_freezing_point_k;
   if (!isfinite(r->u_tf_k) || r->u_tf_k < 0)
     r->u_tf_k = 0;
+  return FF_OK;
+}
+
+/* The files and channels of the runs that reach freezing_point (status
+ * still OK), read and detected ahead on every core: each file once, each
+ * channel once with the parameters of the first run that asks, as
+ * freezing_point would, which then finds them all in the caches. */
+struct ahead {
+  struct ff_series *out;
+  struct caches *k;
+};
+
+static void read_one(void *ctx, size_t i)
+{
+  struct ahead *a = ctx;
+
+  if (a->k->f[i].pending)
+    file_read(&a->k->f[i]);
+}
+
+static void detect_one(void *ctx, size_t i)
+{
+  struct ahead *a = ctx;
+  struct channel_cache *cc = &a->k->c[i];
+
+  if (cc->pending)
+    channel_detect(a->out->ds[cc->ds], cc);
+}
+
+static int read_ahead(struct ff_series *out, struct caches *k,
+                      const struct ff_sheet *sh)
+{
+  struct ahead a = { out, k };
+
+  for (size_t i = 0; i < out->n_runs; i++)
+    if (out->runs[i].status == FF_OK
+        && file_entry(k, sh->row[i].path) == NULL)
+      return FF_EIO;
+  parallel_for(k->nf, read_one, &a);
+  for (size_t i = 0; i < out->n_runs; i++) {
+    const struct ff_sheet_row *row = &sh->row[i];
+    const struct ff_diag *why = NULL;
+    struct ff_diag cd = FF_DIAG_INIT;
+    long ds, ch;
+
+    if (out->runs[i].status != FF_OK)
+      continue;
+    ds = dataset_of(out, k, row->path, &why);
+    if (ds == -2)
+      return FF_EIO;
+    if (ds < 0)
+      continue;
+    ch = ff_dataset_find_channel(out->ds[ds], row->channel, &cd);
+    if (ch < 0)
+      continue;
+    if (channel_entry(k, (size_t)ds, ch, out->runs[i].solvent,
+                      row->thermo_res_k, row->method) == NULL)
+      return FF_EIO;
+  }
+  parallel_for(k->nc, detect_one, &a);
   return FF_OK;
 }
 
@@ -538,6 +710,34 @@ static int collect_kfcal(struct ff_series *s, const struct ff_sheet *sh)
 
 /* ---- the whole pipeline ---- */
 
+struct per_run {
+  const struct ff_series *out;
+  const struct ff_sheet *sheet;
+  const struct ff_series_opts *o;
+};
+
+/* Step 3 for run i: reads the shared Kf calibrations, writes only run i
+ * (its Monte Carlo draws have their own generator and seed). */
+static void numbers_one(void *ctx, size_t i)
+{
+  const struct per_run *pr = ctx;
+  struct ff_series_run *r = &pr->out->runs[i];
+  const struct ff_sheet_row *row = &pr->sheet->row[i];
+
+  if (r->status != FF_OK || row->role == FF_SHEET_BLANK)
+    return;
+  choose_kf(pr->out, pr->sheet, r);
+  r->osmolality_osmol_kg = r->depression_k / r->kf_k_kg_mol;
+  if (row->role == FF_SHEET_UNKNOWN) {
+    unknown_mass(pr->sheet, r, pr->o);
+    return;
+  }
+  if (row->role == FF_SHEET_SAMPLE)
+    molality(pr->sheet, r, pr->o);
+  if (r->status == FF_OK)
+    thermo(pr->sheet, r, pr->o);
+}
+
 /* Out of memory: nothing of the result is usable. */
 static int no_memory(struct ff_series *out, struct ff_diag *d)
 {
@@ -562,7 +762,7 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
   out->n_runs = sheet->n;
 
   /* 1. Every good row: solvent, particles, freezing point. */
-  for (size_t i = 0; i < sheet->n && st == FF_OK; i++) {
+  for (size_t i = 0; i < sheet->n; i++) {
     struct ff_series_run *r = &out->runs[i];
     const struct ff_sheet_row *row = &sheet->row[i];
 
@@ -582,8 +782,11 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
     r->particles_known = ff_series_particles(row, &r->particles,
                                              r->particles_how,
                                              sizeof r->particles_how);
-    st = freezing_point(out, &k, sheet, r);
   }
+  st = read_ahead(out, &k, sheet);
+  for (size_t i = 0; i < sheet->n && st == FF_OK; i++)
+    if (out->runs[i].status == FF_OK)
+      st = freezing_point(out, &k, sheet, &out->runs[i]);
   caches_release(&k);
   if (st != FF_OK)
     return no_memory(out, d);
@@ -606,22 +809,9 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
     return no_memory(out, d);
 
   /* 3. Samples, standards (i against the table), unknowns. */
-  for (size_t i = 0; i < out->n_runs; i++) {
-    struct ff_series_run *r = &out->runs[i];
-    const struct ff_sheet_row *row = &sheet->row[i];
-
-    if (r->status != FF_OK || row->role == FF_SHEET_BLANK)
-      continue;
-    choose_kf(out, sheet, r);
-    r->osmolality_osmol_kg = r->depression_k / r->kf_k_kg_mol;
-    if (row->role == FF_SHEET_UNKNOWN) {
-      unknown_mass(sheet, r, o);
-      continue;
-    }
-    if (row->role == FF_SHEET_SAMPLE)
-      molality(sheet, r, o);
-    if (r->status == FF_OK)
-      thermo(sheet, r, o);
+  {
+    struct per_run pr = { out, sheet, o };
+    parallel_for(out->n_runs, numbers_one, &pr);
   }
 
   /* 4. Fits per solute and per unknown (series_fit.c). */
