@@ -205,6 +205,16 @@ expect_rc 2
 expect_err "unk.csv:2:4: column 'solvent': unknown solvent 'unobtainium'"
 expect_err "unk.csv:3:8: column 'formula': formula 'Xq\(NH2\)2': unknown element 'Xq'"
 
+# The same hostile files given as a run sheet.
+for f in empty junk u16le u16le_nobom wide; do
+  CASE="series: $f as the run sheet"; run "$FF" series "$H/$f.csv" --mc 0
+  expect_rc 2; h_err_only; expect_err "^frostfit: .*$f.csv"
+done
+printf '%s\n' "$HDR" > "$H/sheet_hdr.csv"
+CASE="series: run sheet with a header only"
+run "$FF" series "$H/sheet_hdr.csv" --mc 0
+expect_rc 2; h_err_only; expect_err "has a header but no runs"
+
 # ---- absurd numbers on the command line ----
 for g in 0 -1; do
   CASE="mass: --solvent-g $g"
