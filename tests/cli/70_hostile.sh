@@ -226,6 +226,12 @@ for v in nan inf 1e400; do
   run "$FF" mass --solvent water --solvent-g 25 --solute-g "$v" --dt 0.5
   expect_rc 1; h_err_only; expect_err "expects a number, found '$v'"
 done
+CASE="mass: no depression"
+run "$FF" mass --solvent water --solvent-g 25 --solute-g 1 --tf-blank 0 \
+  --tf-sample 0 --mc 0
+expect_rc 2; h_err_only; expect_err "must freeze below its blank"
+CASE="mass: --kf 0"; run "$FF" mass --kf 0 --solvent-g 25 --solute-g 1 --dt 0.5
+expect_rc 2; h_err_only; expect_err "kf must be positive"
 CASE="mass: unknown solvent"
 run "$FF" mass --solvent unobtainium --solvent-g 25 --solute-g 1 --dt 0.5
 expect_rc 2; h_err_only; expect_err "unknown solvent 'unobtainium'"
