@@ -79,20 +79,31 @@ int dd_line(const double *t, const double *y, size_t i0, size_t i1,
 
 /* ---- Newton cooling: T = Tb + A exp(-k (t - t_ref)) ---------------- */
 
+/* The exponentials of the last residual evaluation are kept: the solver
+ * asks for the Jacobian at the point it last evaluated (an accepted step),
+ * where they are the same numbers, so each is computed once. */
 struct nl_data {
   const double *t, *y;
   size_t n;
   double t_ref;
+  double *e;                   /* exp(-k (t - t_ref)) at k = e_k */
+  double e_k;
+  int e_ok;
 };
 
 static int newton_f(const gsl_vector *x, void *data, gsl_vector *f)
 {
-  const struct nl_data *d = data;
+  struct nl_data *d = data;
   double tb = gsl_vector_get(x, 0), a = gsl_vector_get(x, 1),
          k = gsl_vector_get(x, 2);
 
-  for (size_t i = 0; i < d->n; i++)
-    gsl_vector_set(f, i, tb + a * exp(-k * (d->t[i] - d->t_ref)) - d->y[i]);
+  for (size_t i = 0; i < d->n; i++) {
+    double e = exp(-k * (d->t[i] - d->t_ref));
+    d->e[i] = e;
+    gsl_vector_set(f, i, tb + a * e - d->y[i]);
+  }
+  d->e_k = k;
+  d->e_ok = 1;
   return GSL_SUCCESS;
 }
 
@@ -100,9 +111,10 @@ static int newton_df(const gsl_vector *x, void *data, gsl_matrix *J)
 {
   const struct nl_data *d = data;
   double a = gsl_vector_get(x, 1), k = gsl_vector_get(x, 2);
+  int same = d->e_ok && memcmp(&k, &d->e_k, sizeof k) == 0;
 
   for (size_t i = 0; i < d->n; i++) {
-    double s = d->t[i] - d->t_ref, e = exp(-k * s);
+    double s = d->t[i] - d->t_ref, e = same ? d->e[i] : exp(-k * s);
     gsl_matrix_set(J, i, 0, 1.0);
     gsl_matrix_set(J, i, 1, e);
     gsl_matrix_set(J, i, 2, -a * s * e);
@@ -160,7 +172,10 @@ int dd_newton(const struct dctx *c, size_t i0, size_t i1,
   tb = y1 - a;
   a *= exp(k * (c->t[i0 + m / 2] - c->t[i0]));   /* to t_ref = t[i0] */
 
-  nd = (struct nl_data){ c->t + i0, c->y + i0, n, c->t[i0] };
+  nd = (struct nl_data){ c->t + i0, c->y + i0, n, c->t[i0], NULL, 0.0, 0 };
+  nd.e = malloc(n * sizeof *nd.e);
+  if (nd.e == NULL)
+    return -1;
   fdf.f = newton_f;
   fdf.df = newton_df;
   fdf.fvv = NULL;
@@ -169,8 +184,10 @@ int dd_newton(const struct dctx *c, size_t i0, size_t i1,
   fdf.params = &nd;
   fp = gsl_multifit_nlinear_default_parameters();
   w = gsl_multifit_nlinear_alloc(gsl_multifit_nlinear_trust, &fp, n, 3);
-  if (w == NULL)
+  if (w == NULL) {
+    free(nd.e);
     return -1;
+  }
   x0[0] = tb;
   x0[1] = a;
   x0[2] = k;
@@ -211,6 +228,7 @@ int dd_newton(const struct dctx *c, size_t i0, size_t i1,
     }
   }
   gsl_multifit_nlinear_free(w);
+  free(nd.e);
   return ret;
 }
 
@@ -539,12 +557,14 @@ static int model_pass(const struct dctx *c, const struct ff_event *e,
     return -1;
   }
   x[0] = 0.0;
+  /* The liquid curve at t[b] is the next step's value at t[a]. */
+  double lnext = n > 1 ? ff_event_eval_liquid(&tmp, c->t[s0]) : 0.0;
   for (size_t j = 1; j < n; j++) {
     size_t a = s0 + j - 1, b = a + 1;
     double xc = x[j - 1] < 0.0 ? 0.0 : (x[j - 1] > 1.0 ? 1.0 : x[j - 1]);
     double cap = (1.0 - xc) * c->cpl + xc * c->cps;
-    double la = ff_event_eval_liquid(&tmp, c->t[a]),
-           lb = ff_event_eval_liquid(&tmp, c->t[b]);
+    double la = lnext, lb = ff_event_eval_liquid(&tmp, c->t[b]);
+    lnext = lb;
     double da = c->ys[a] - la, db = c->ys[b] - lb;
     x[j] = x[j - 1] + (cap * (db - da)
                        + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) / tau
