@@ -145,6 +145,17 @@ static int bad_input(const char *opt, double v, const char *unit,
   return ff_cli_fail(&d);
 }
 
+/* "OPT must be at most MAX UNIT, got V": catches typing slips such as
+ * 1e300 g, with the run sheet's ranges (docs/formats/run-sheet.md). */
+static int too_large(const char *opt, double v, double max, const char *unit)
+{
+  struct ff_diag d = FF_DIAG_INIT;
+
+  ff_diag_set(&d, FF_EINPUT, NULL, "%s must be at most %g%s%s, got %g", opt,
+              max, unit[0] ? " " : "", unit, v);
+  return ff_cli_fail(&d);
+}
+
 /* Decimals that show u with two significant digits. */
 static int decimals_for(double u)
 {
@@ -348,6 +359,20 @@ int ff_cmd_mass(int argc, char **argv)
   for (size_t i = 0; i < sizeof nonneg / sizeof nonneg[0]; i++)
     if (nonneg[i].v < 0.0)
       return bad_input(nonneg[i].name, nonneg[i].v, "", 1);
+  const struct { const char *name; double v, max; const char *unit; } cap[] = {
+    { "--solvent-g", o.solvent_g, 100000.0, "g" },
+    { "--solute-g", o.solute_g, 10000.0, "g" },
+    { have_tf ? "the depression" : "--dt", o.dt, 200.0, "K" },
+    { "--kf", o.kf, 1000.0, "K kg/mol" },
+    { "--u-kf", o.u_kf, 1000.0, "K kg/mol" },
+    { "--balance-res", o.balance_res, 10.0, "g" },
+    { "--u-solute-g", o.u_solute, 10000.0, "g" },
+    { "--u-solvent-g", o.u_solvent, 100000.0, "g" },
+    { "--thermo-res", o.thermo_res, 10.0, "K" },
+    { "--u-tf", o.u_tf, 10.0, "K" } };
+  for (size_t i = 0; i < sizeof cap / sizeof cap[0]; i++)
+    if (cap[i].v > cap[i].max)   /* NaN (not given) passes */
+      return too_large(cap[i].name, cap[i].v, cap[i].max, cap[i].unit);
 
   if (o.solvent != NULL) {
     snprintf(path, sizeof path, "%s/solvents.csv", ff_cli_datadir());

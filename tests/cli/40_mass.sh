@@ -69,3 +69,11 @@ expect_rc 1; expect_err "expects a number, found '1,5'"; expect_no_out
 CASE="mass unknown option"
 run "$FF" mass --solvent water --frobnicate 3
 expect_rc 1; expect_err "unknown option '--frobnicate'"
+
+# Typing slips such as 1e300 are bad input, never a 300-digit result.
+CASE="mass absurd solvent mass"
+run "$FF" mass --solvent cyclohexane --solvent-g 1e300 --solute-g 0.1 --dt 1
+expect_rc 2; expect_no_out; expect_err '^frostfit: --solvent-g must be at most 100000 g'
+CASE="mass absurd u-tf"
+run "$FF" mass --solvent cyclohexane --solvent-g 20 --solute-g 0.1 --dt 1 --u-tf 1e300
+expect_rc 2; expect_no_out; expect_err '^frostfit: --u-tf must be at most 10 K'
