@@ -64,7 +64,8 @@ static json_t *run_json(const struct ff_series *s,
 #define NUM(k, x) ff_json_set_num(o, (k), ok ? (x) : NAN)
 
   ff_json_set_str(o, "run", row->run);
-  ff_json_set_str(o, "role", ff_sheet_role_name(row->role));
+  ff_json_set_str(o, "role", row->role == FF_SHEET_ROLE_NONE
+                             ? NULL : ff_sheet_role_name(row->role));
   json_object_set_new(o, "line", json_integer((json_int_t)row->line));
   ff_json_set_str(o, "file", row->file);
   ff_json_set_str(o, "channel", row->channel);
@@ -329,7 +330,8 @@ int ff_series_write_csv(const struct ff_series *s, FILE *f)
     char buf[1200];
 #define N(x) num(f, ok ? (x) : NAN, 0)
     e |= text(f, "run", 0) | text(f, row->run, 0)
-       | text(f, ff_sheet_role_name(row->role), 0) | text(f, row->solvent, 0)
+       | text(f, row->role == FF_SHEET_ROLE_NONE
+                 ? "" : ff_sheet_role_name(row->role), 0) | text(f, row->solvent, 0)
        | text(f, row->solute, 0) | text(f, status_key(r->status), 0)
        | N(r->tf_c) | N(r->u_tf_k)
        | N(r->has_event ? r->event.supercooling_k : NAN)

@@ -287,9 +287,9 @@ static int need(struct ff_sheet *s, struct ff_sheet_row *r,
     return 0;
   if (s->col[c] == 0)
     return row_fail(s, r, c, d, "not in the header, but a %s run needs it",
-                    role_names[r->role]);
+                    ff_sheet_role_name(r->role));
   return row_fail(s, r, c, d, "missing; a %s run needs it",
-                  role_names[r->role]);
+                  ff_sheet_role_name(r->role));
 }
 
 /* ---- one row ---- */
@@ -313,6 +313,9 @@ static int parse_role(struct ff_sheet *s, struct ff_sheet_row *r,
 {
   const char *t = cell(s, rec, FF_SC_ROLE);
 
+  /* Until read, a row is no role at all: a bad role cell must never make
+   * it a blank that other runs are measured against. */
+  r->role = FF_SHEET_ROLE_NONE;
   if (t[0] == '\0')
     return row_fail(s, r, FF_SC_ROLE, d, "missing; use blank, sample, "
                     "unknown or standard");
@@ -440,7 +443,7 @@ static int parse_row(struct ff_sheet *s, struct ff_sheet_row *r,
   if (isnan(r->solute_g))
     return row_fail(s, r, FF_SC_SOLUTE_G, d, "%s; a %s run needs solute_g "
                     "(or molality)", s->col[FF_SC_SOLUTE_G] ? "missing"
-                    : "not in the header", role_names[r->role]);
+                    : "not in the header", ff_sheet_role_name(r->role));
   if (need(s, r, rec, FF_SC_SOLVENT_G, d))
     return FF_EINPUT;
   if (isnan(r->molar_mass_g_mol) && r->formula[0] == '\0')
@@ -523,7 +526,7 @@ static void link_blanks(struct ff_sheet *s, struct ff_diag *d)
     if (s->row[j].role != FF_SHEET_BLANK) {
       row_fail(s, r, FF_SC_BLANK, d, "run '%s' (line %lu) has role '%s', "
                "not blank", r->blank, s->row[j].line,
-               role_names[s->row[j].role]);
+               ff_sheet_role_name(s->row[j].role));
       continue;
     }
     r->blank_row = j;

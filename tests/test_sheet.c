@@ -344,3 +344,23 @@ Test(sheet, stray_quotes_do_not_swallow_lines, .fini = cleanup)
   cr_expect_str_eq(s.row[2].run, "B3");
   ff_sheet_release(&s);
 }
+
+/* A row whose role cannot be read is no role at all: it must not become
+ * the blank that the other runs of its solvent are measured against. */
+Test(sheet, bad_role_row_is_never_a_blank, .fini = cleanup)
+{
+  struct ff_sheet s = FF_SHEET_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  const char *path = write_sheet(
+    "run,file,role,solvent,solvent_g,solute,molality,particles\n"
+    "B1,c.csv,smaple,water,25,,,\n"
+    "S1,c.csv,sample,water,25,urea,0.1,1\n");
+
+  cr_assert_eq(ff_sheet_read(path, &s, &d), FF_EINPUT);
+  cr_assert_eq(s.n, 2);
+  cr_expect_eq(s.row[0].role, FF_SHEET_ROLE_NONE);
+  cr_expect_str_eq(ff_sheet_role_name(s.row[0].role), "?");
+  cr_expect_neq(s.row[1].diag.status, FF_OK,
+                "the sample has no blank to be measured against");
+  ff_sheet_release(&s);
+}

@@ -13,7 +13,8 @@ enum ff_sheet_role {
   FF_SHEET_BLANK = 0,      /* pure solvent: the reference freezing point */
   FF_SHEET_SAMPLE,         /* known solute: i, phi, osmolality */
   FF_SHEET_UNKNOWN,        /* unknown solute: apparent molar mass */
-  FF_SHEET_STANDARD        /* known non-electrolyte: calibrates Kf */
+  FF_SHEET_STANDARD,       /* known non-electrolyte: calibrates Kf */
+  FF_SHEET_ROLE_NONE       /* the role cell could not be read (bad row) */
 };
 
 /* Columns the reader understands; FF_SHEET_NCOLS counts them. */
