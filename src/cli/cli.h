@@ -32,6 +32,15 @@ int ff_cli_number(const char *cmd, const char *opt, const char *s, double *out);
 /* Flushes stdout; returns FF_EIO (after saying so) when the write failed. */
 int ff_cli_finish(int status);
 
+/*
+ * 1 when input sits in fig_dir under a name a figure file could take, so
+ * writing figures there could replace it: with series_names, the names the
+ * series figures use (run_*, solute_*, unknown_*, overview*, render* with
+ * .gp .dat .png .svg .pdf); without, any file with those endings.
+ */
+int ff_cli_figure_would_replace(const char *fig_dir, const char *input,
+                                int series_names);
+
 /* The folder that holds solvents.csv etc.; see DEVELOPERS.md. */
 const char *ff_cli_datadir(void);
 

@@ -478,6 +478,10 @@ int ff_cmd_point(int argc, char **argv)
     return ff_cli_usage(CMD, "no FILE given");
   if (formats_given && fig_dir == NULL)
     return ff_cli_usage(CMD, "--format needs --figures DIR");
+  if (fig_dir != NULL && ff_cli_figure_would_replace(fig_dir, path, 0))
+    return ff_cli_usage(CMD, "--figures '%s' holds the input '%s', which a "
+                        "figure file could replace; choose another folder",
+                        fig_dir, path);
 
   /* Solvent constants: the bundled table; without it (and without
    * --solvent) the detector's built-in water constants serve. */

@@ -521,40 +521,10 @@ static int write_csv(const struct ff_series *s, const char *path)
  */
 static const char *figure_clash(const struct opts *o, const struct ff_sheet *sh)
 {
-  static const char *const stems[] = { "run_", "solute_", "unknown_",
-                                       "overview", "render" };
-  static const char *const exts[] = { ".gp", ".dat", ".png", ".svg", ".pdf" };
-  struct stat fig, in;
-  size_t n_in = sh->n + 2;
-
-  if (stat(o->figures, &fig) != 0)
-    return NULL;               /* a new folder holds no input */
-  for (size_t k = 0; k < n_in; k++) {
+  for (size_t k = 0; k < sh->n + 2; k++) {
     const char *p = k < sh->n ? sh->row[k].path
                     : k == sh->n ? o->sheet : o->solvents;
-    char dir[PATH_MAX];
-    const char *base, *dot;
-    int stem = 0, ext = 0;
-
-    if (p == NULL)
-      continue;
-    base = strrchr(p, '/');
-    if (base == NULL) {
-      strcpy(dir, ".");
-      base = p;
-    } else {
-      snprintf(dir, sizeof dir, "%.*s", (int)(base - p + 1), p);
-      base++;
-    }
-    if (stat(dir, &in) != 0 || in.st_dev != fig.st_dev
-        || in.st_ino != fig.st_ino)
-      continue;
-    dot = strrchr(base, '.');
-    for (size_t j = 0; j < sizeof stems / sizeof stems[0]; j++)
-      stem |= strncasecmp(base, stems[j], strlen(stems[j])) == 0;
-    for (size_t j = 0; dot != NULL && j < sizeof exts / sizeof exts[0]; j++)
-      ext |= strcasecmp(dot, exts[j]) == 0;
-    if (stem && ext)
+    if (ff_cli_figure_would_replace(o->figures, p, 1))
       return p;
   }
   return NULL;

@@ -94,3 +94,10 @@ run "$FF" point "$TMP/cycles.csv" --figures "$TMP/ptfig" --format svg
 expect_rc 0; expect_err 'figure'
 n=$(ls "$TMP"/ptfig/*_c[0-9]*.gp 2>/dev/null | wc -l)
 if [ "$n" -eq 3 ]; then ok; else bad "$n event figure scripts, want 3"; fi
+
+# A figure must never replace the input: refused before anything is written.
+CASE="point --figures over its own input"
+mkdir -p "$TMP/pfig"
+"$FF" simulate --molality 0.05 --i 2 --out "$TMP/pfig/render.gp" >/dev/null 2>&1
+run "$FF" point "$TMP/pfig/render.gp" --figures "$TMP/pfig"
+expect_rc 1; expect_no_out; expect_err "holds the input"
