@@ -42,7 +42,9 @@ BIN := $(BUILD)/frostfit
 
 # Debian 12 packages: compiler, libraries, test framework, figures.
 DEB_PKGS := gcc make pkg-config libgsl-dev libcsv-dev libcriterion-dev \
-            libjansson-dev gnuplot-nox locales
+            libjansson-dev gnuplot-nox locales clang libclang-rt-14-dev
+# Seconds each fuzzer runs inside `make check` (`make fuzz` runs longer).
+CHECK_FUZZ_SECONDS ?= 20
 
 .PHONY: all deps check check-only test-unit test-cli demo demo-only \
         check-asan bench bench-accuracy bench-speed fuzz install clean
@@ -68,11 +70,15 @@ deps:
 	@scripts/deps.sh $(DEB_PKGS)
 
 # The README's test command: the suite, then the same suite under
-# AddressSanitizer and UBSan (about a minute more on 2 cores).
+# AddressSanitizer and UBSan (about a minute more on 2 cores), then every
+# libFuzzer harness briefly (mk/fuzz.mk).
 check: deps
 	@$(MAKE) --no-print-directory check-only
 	@echo "== the same tests under AddressSanitizer and UndefinedBehaviorSanitizer"
 	@$(MAKE) --no-print-directory BUILD=build-asan SANITIZE=1 check-only
+	@echo "== kept crashers, then each fuzzer for $(CHECK_FUZZ_SECONDS) s"
+	@$(MAKE) --no-print-directory BUILD=build-fuzz fuzz-regress
+	@$(MAKE) --no-print-directory BUILD=build-fuzz fuzz FUZZ_SECONDS=$(CHECK_FUZZ_SECONDS)
 check-only: test-unit test-cli
 test-unit: $(BUILD)/unit-tests
 	$(BUILD)/unit-tests --jobs 2
