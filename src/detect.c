@@ -641,11 +641,12 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
 /*
  * Slope-break events (no supercooling) in [a, b): the point where a clear
  * cooling slope drops by BREAK_RATIO within BREAK_WINDOW_S and stays flat
- * for the minimum branch length. Slopes from prefix sums, O(1) each.
+ * for the minimum branch length. Slopes from prefix sums, O(1) each; only
+ * the prefix sums the windows around i reach are kept (a ring of R).
  */
 static int find_break(const struct dctx *c, size_t a, size_t b, size_t *at)
 {
-  size_t n = b > a ? b - a : 0, w, best = 0, wb;
+  size_t n = b > a ? b - a : 0, w, best = 0, wb, ahead, R, filled = 0;
   double *S, bestr = 0.0, t0;
 
   if (n < 20)
@@ -656,26 +657,30 @@ static int find_break(const struct dctx *c, size_t a, size_t b, size_t *at)
     w = 5;
   if (n < 2 * w + wb)
     return 0;
-  S = calloc(5 * (n + 1), sizeof *S);
+  ahead = wb > w ? wb : w;
+  R = w + ahead + 1;
+  S = calloc(5 * R, sizeof *S);  /* prefix sum k at S[5 (k % R)]; k = 0: 0 */
   if (S == NULL)
     return 0;
   t0 = c->t[a];
-  for (size_t i = 0; i < n; i++) {
-    double x = c->t[a + i] - t0, y = c->y[a + i];
-    double add[5] = { 1.0, x, x * x, y, x * y };
-    for (int k = 0; k < 5; k++)
-      S[5 * (i + 1) + k] = S[5 * i + k] + add[k];
-  }
+#define PS(k) (S + 5 * ((k) % R))
 #define SLOPE(i0, i1, out)                                                    \
   do {                                                                        \
     double m_[5];                                                             \
     for (int q_ = 0; q_ < 5; q_++)                                            \
-      m_[q_] = S[5 * (i1) + q_] - S[5 * (i0) + q_];                           \
+      m_[q_] = PS(i1)[q_] - PS(i0)[q_];                                       \
     double sxx_ = m_[2] - m_[1] * m_[1] / m_[0];                              \
     (out) = sxx_ > 0.0 ? (m_[4] - m_[1] * m_[3] / m_[0]) / sxx_ : 0.0;       \
   } while (0)
-  for (size_t i = w; i + (wb > w ? wb : w) <= n; i++) {
+  for (size_t i = w; i + ahead <= n; i++) {
     double sb, sa, sl, drop;
+    for (; filled < i + ahead; filled++) {   /* prefix sums up to i+ahead */
+      double x = c->t[a + filled] - t0, y = c->y[a + filled];
+      double add[5] = { 1.0, x, x * x, y, x * y };
+      double *from = PS(filled), *to = PS(filled + 1);
+      for (int k = 0; k < 5; k++)
+        to[k] = from[k] + add[k];
+    }
     SLOPE(i - w, i, sb);
     if (!(sb < 0.0))
       continue;
@@ -691,6 +696,7 @@ static int find_break(const struct dctx *c, size_t a, size_t b, size_t *at)
     }
   }
 #undef SLOPE
+#undef PS
   free(S);
   if (best == 0)
     return 0;
