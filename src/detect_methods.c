@@ -96,11 +96,12 @@ static int newton_f(const gsl_vector *x, void *data, gsl_vector *f)
   struct nl_data *d = data;
   double tb = gsl_vector_get(x, 0), a = gsl_vector_get(x, 1),
          k = gsl_vector_get(x, 2);
+  double *fv = f->data;        /* n values, stride f->stride */
 
   for (size_t i = 0; i < d->n; i++) {
     double e = exp(-k * (d->t[i] - d->t_ref));
     d->e[i] = e;
-    gsl_vector_set(f, i, tb + a * e - d->y[i]);
+    fv[i * f->stride] = tb + a * e - d->y[i];
   }
   d->e_k = k;
   d->e_ok = 1;
@@ -115,9 +116,10 @@ static int newton_df(const gsl_vector *x, void *data, gsl_matrix *J)
 
   for (size_t i = 0; i < d->n; i++) {
     double s = d->t[i] - d->t_ref, e = same ? d->e[i] : exp(-k * s);
-    gsl_matrix_set(J, i, 0, 1.0);
-    gsl_matrix_set(J, i, 1, e);
-    gsl_matrix_set(J, i, 2, -a * s * e);
+    double *row = J->data + i * J->tda;   /* n x 3, row-major */
+    row[0] = 1.0;
+    row[1] = e;
+    row[2] = -a * s * e;
   }
   return GSL_SUCCESS;
 }
