@@ -78,7 +78,8 @@ check: deps
 	@$(MAKE) --no-print-directory BUILD=build-asan SANITIZE=1 check-only
 	@echo "== kept crashers, then each fuzzer for $(CHECK_FUZZ_SECONDS) s"
 	@$(MAKE) --no-print-directory BUILD=build-fuzz fuzz-regress
-	@$(MAKE) --no-print-directory BUILD=build-fuzz fuzz FUZZ_SECONDS=$(CHECK_FUZZ_SECONDS)
+	@$(MAKE) --no-print-directory BUILD=build-fuzz fuzz-build >/dev/null
+	@scripts/fuzz-brief.sh build-fuzz/fuzz $(CHECK_FUZZ_SECONDS)
 check-only: test-unit test-cli
 test-unit: $(BUILD)/unit-tests
 	$(BUILD)/unit-tests --jobs 2
