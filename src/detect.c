@@ -253,24 +253,77 @@ static size_t half_width(const struct dctx *c)
   return h > 10.0 ? 10 : (size_t)(h + 0.5);
 }
 
-/* Centred moving average: no phase shift, so times are not moved. */
+/* Centred moving average at i: no phase shift, so times are not moved. */
+static double smooth_at(const struct dctx *c, size_t i)
+{
+  size_t h = c->h;
+  size_t a = i > h ? i - h : 0, b = i + h + 1 < c->n ? i + h + 1 : c->n;
+  double s = 0.0;
+
+  for (size_t j = a; j < b; j++)
+    s += c->y[j];
+  return s / (double)(b - a);
+}
+
+double dd_ys_fill(const struct dctx *c, size_t i)
+{
+  struct ys_cache *k = c->ysc;
+  size_t tag = i / YS_BLOCK + 1, i0, i1;
+  unsigned w = 0;
+
+  for (unsigned q = 0; q < k->ways; q++)
+    if (k->tag[q] == tag) {
+      k->last = q;
+      return k->v[(size_t)q * YS_BLOCK + i % YS_BLOCK];
+    }
+  for (unsigned q = 0; q < k->ways; q++) {  /* empty, or filled first */
+    if (k->tag[q] == 0) {
+      w = q;
+      break;
+    }
+    if (k->filled[q] < k->filled[w])
+      w = q;
+  }
+  i0 = (tag - 1) * YS_BLOCK;
+  i1 = i0 + YS_BLOCK < c->n ? i0 + YS_BLOCK : c->n;
+  for (size_t j = i0; j < i1; j++)
+    k->v[(size_t)w * YS_BLOCK + (j - i0)] = smooth_at(c, j);
+  k->tag[w] = tag;
+  k->filled[w] = ++k->clock;
+  k->last = w;
+  return k->v[(size_t)w * YS_BLOCK + i % YS_BLOCK];
+}
+
+/* The smoothed readings' cache; whether any of them is NaN (only sums
+ * that overflow give one: none when (2h+1) max|y| is finite). */
 static int smooth(struct dctx *c)
 {
-  size_t h = half_width(c);
+  size_t nb = (c->n + YS_BLOCK - 1) / YS_BLOCK;
+  double big = 0.0;
 
-  c->ys = malloc(c->n * sizeof *c->ys);
-  if (c->ys == NULL)
+  c->h = half_width(c);
+  c->ysc = calloc(1, sizeof *c->ysc);
+  if (c->ysc == NULL)
     return -1;
-  for (size_t i = 0; i < c->n; i++) {
-    size_t a = i > h ? i - h : 0, b = i + h + 1 < c->n ? i + h + 1 : c->n;
-    double s = 0.0;
-    for (size_t j = a; j < b; j++)
-      s += c->y[j];
-    c->ys[i] = s / (double)(b - a);
-    if (isnan(c->ys[i]))
-      c->ys_nan = 1;
-  }
+  c->ysc->ways = nb < YS_WAYS ? (unsigned)nb : YS_WAYS;
+  c->ysc->v = malloc((size_t)c->ysc->ways * YS_BLOCK * sizeof *c->ysc->v);
+  if (c->ysc->v == NULL)
+    return -1;
+  for (size_t i = 0; i < c->n; i++)
+    big = fmax(big, fabs(c->y[i]));
+  if (!isfinite(big * (double)(2 * c->h + 2)))
+    for (size_t i = 0; i < c->n && !c->ys_nan; i++)
+      if (isnan(smooth_at(c, i)))
+        c->ys_nan = 1;
   return 0;
+}
+
+static void smooth_free(struct dctx *c)
+{
+  if (c->ysc != NULL)
+    free(c->ysc->v);
+  free(c->ysc);
+  c->ysc = NULL;
 }
 
 static int push(struct ff_event_list *l, const struct ff_event *e)
@@ -314,11 +367,11 @@ static size_t branch_end(const struct dctx *c, size_t i, double rise,
 
   *thaw = 0;
   for (size_t k = i; k < c->n; k++) {
-    if (c->ys[k] < c->ys[rm])
+    if (dd_ys(c, k) < dd_ys(c, rm))
       rm = k;
-    if (c->ys[k] > c->ys[rm] + lim) {
+    if (dd_ys(c, k) > dd_ys(c, rm) + lim) {
       size_t j = k;
-      while (j > rm && c->ys[j] > c->ys[rm] + tol)
+      while (j > rm && dd_ys(c, j) > dd_ys(c, rm) + tol)
         j--;
       *thaw = 1;
       return j + 1;
@@ -331,7 +384,7 @@ static size_t branch_end(const struct dctx *c, size_t i, double rise,
 static size_t melted(const struct dctx *c, size_t i, double level)
 {
   for (size_t k = i; k < c->n; k++)
-    if (c->ys[k] > level)
+    if (dd_ys(c, k) > level)
       return k;
   return c->n;
 }
@@ -560,7 +613,7 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
     }
   e->nucleation_time_s = c->t[m];
   e->t_min_c = tmin;
-  e->peak_c = c->ys[pk];
+  e->peak_c = dd_ys(c, pk);
   e->peak_time_s = c->t[pk];
   e->recalescence_rise_k = e->peak_c - e->t_min_c;
   e->est[FF_METHOD_PEAK].ok = 1;
@@ -575,7 +628,7 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
   {
     size_t k90 = m;
     double lvl = e->t_min_c + 0.9 * (e->peak_c - e->t_min_c);
-    while (k90 < pk && c->ys[k90] < lvl)
+    while (k90 < pk && dd_ys(c, k90) < lvl)
       k90++;
     t90 = c->t[k90] - c->t[m];
   }
@@ -586,7 +639,7 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
    * exp(-6.9) = 0.1 % of the offset after 3 t90; 30 s when the rise gives
    * no measure. */
   for (size_t k = seg0; k < m; k++)
-    if (c->ys[k] > c->ys[lw0])
+    if (dd_ys(c, k) > dd_ys(c, lw0))
       lw0 = k;
   lw1 = dd_index_at(c, c->t[m] - fmax((double)(h + 1) * c->dt, 0.5 * t90));
   if (lw1 > lw0)
@@ -716,7 +769,7 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
   e->end_s = c->t[b_end - 1];
   e->noise_k = c->sigma;
   for (size_t q = seg0; q < k; q++)
-    if (c->ys[q] > c->ys[lw0])
+    if (dd_ys(c, q) > dd_ys(c, lw0))
       lw0 = q;
   /* The corner is rounded by the probe lag: the liquid fits stop short. */
   lw1 = dd_index_at(c, c->t[k] - 0.5 * BREAK_WINDOW_S);
@@ -733,7 +786,7 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
   e->nucleation_time_s = isfinite(e->break_time_s) ? e->break_time_s
                                                    : c->t[k];
   kb = dd_index_at(c, e->nucleation_time_s);
-  e->t_min_c = e->peak_c = c->ys[kb];
+  e->t_min_c = e->peak_c = dd_ys(c, kb);
   e->peak_time_s = c->t[kb];
   e->recalescence_rise_k = 0.0;
   b0 = dd_index_at(c, e->nucleation_time_s + settle);
@@ -780,37 +833,47 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
  */
 struct slide_min {
   size_t *q, head, tail, cap, next;  /* q[head, tail); next index to add */
+  double *qv;                        /* the values at q */
 };
 
-static int slide_add(struct slide_min *s, const double *ys, size_t j)
+static int slide_add(struct slide_min *s, const struct dctx *c, size_t j)
 {
   for (; s->next <= j; s->next++) {
-    while (s->tail > s->head && ys[s->q[s->tail - 1]] >= ys[s->next])
+    double v = dd_ys(c, s->next);
+    while (s->tail > s->head && s->qv[s->tail - 1] >= v)
       s->tail--;
     if (s->tail == s->cap) {
       if (s->head > 0) {
         memmove(s->q, s->q + s->head, (s->tail - s->head) * sizeof *s->q);
+        memmove(s->qv, s->qv + s->head,
+                (s->tail - s->head) * sizeof *s->qv);
         s->tail -= s->head;
         s->head = 0;
       } else {
         size_t cap = s->cap ? 2 * s->cap : 1024;
         size_t *q = realloc(s->q, cap * sizeof *q);
+        double *qv;
         if (q == NULL)
           return -1;
         s->q = q;
+        qv = realloc(s->qv, cap * sizeof *qv);
+        if (qv == NULL)
+          return -1;
+        s->qv = qv;
         s->cap = cap;
       }
     }
-    s->q[s->tail++] = s->next;
+    s->q[s->tail] = s->next;
+    s->qv[s->tail++] = v;
   }
   return 0;
 }
 
-static double slide_min_at(struct slide_min *s, const double *ys, size_t lo)
+static double slide_min_at(struct slide_min *s, size_t lo)
 {
   while (s->head < s->tail && s->q[s->head] < lo)
     s->head++;
-  return s->head < s->tail ? ys[s->q[s->head]] : NAN;  /* NaN: scan */
+  return s->head < s->tail ? s->qv[s->head] : NAN;  /* NaN: scan */
 }
 
 static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
@@ -830,15 +893,15 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
      * minimum value decides; the scan below picks the same index as
      * always. */
     if (!scan) {
-      if (slide_add(&sm, c->ys, j) != 0)
+      if (slide_add(&sm, c, j) != 0)
         scan = 1;              /* out of memory: fall back to the scan */
-      else if (c->ys[j] - slide_min_at(&sm, c->ys, lo) < rise)
+      else if (dd_ys(c, j) - slide_min_at(&sm, lo) < rise)
         continue;
     }
     for (size_t k = lo; k <= j; k++)
-      if (c->ys[k] < c->ys[mi])
+      if (dd_ys(c, k) < dd_ys(c, mi))
         mi = k;
-    if (c->ys[j] - c->ys[mi] < rise)
+    if (dd_ys(c, j) - dd_ys(c, mi) < rise)
       continue;
     /* Liquid cooling must lead into it (a warm-up does not). */
     {
@@ -847,7 +910,7 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
       int ok = 1;
       if (a < from)
         a = from;
-      if (mi > a && c->ys[a] - c->ys[mi] < 0.5 * rise && c->t[mi]
+      if (mi > a && dd_ys(c, a) - dd_ys(c, mi) < 0.5 * rise && c->t[mi]
           - c->t[a] >= 0.5 * PRE_WINDOW_S)
         ok = 0;
       /* The peak: the warmest smoothed point soon after; the first point
@@ -855,20 +918,20 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
       kend = dd_index_at(c, c->t[mi] + p->max_rise_s + 30.0);
       top = j;
       for (k = j; k <= kend && k < c->n; k++)
-        if (c->ys[k] > c->ys[top])
+        if (dd_ys(c, k) > dd_ys(c, top))
           top = k;
-      best = c->ys[top];
+      best = dd_ys(c, top);
       /* A freeze holds at or below its peak; a warm-up keeps rising. */
       kend = dd_index_at(c, c->t[top] + 60.0);
       for (k = top; k <= kend && k < c->n; k++)
-        if (c->ys[k] > best + 0.5 * rise)
+        if (dd_ys(c, k) > best + 0.5 * rise)
           ok = 0;
       /* ... and the latent heat slows the cooling: a spike (a touched
        * probe, a bubble) falls back at the liquid's rate or faster. */
       kend = dd_index_at(c, c->t[top] + SPIKE_WINDOW_S);
-      if (ok && kend > top && mi > a && c->ys[a] > c->ys[mi]) {
-        double before = (c->ys[a] - c->ys[mi]) / (c->t[mi] - c->t[a]),
-               after = (c->ys[top] - c->ys[kend]) / (c->t[kend] - c->t[top]);
+      if (ok && kend > top && mi > a && dd_ys(c, a) > dd_ys(c, mi)) {
+        double before = (dd_ys(c, a) - dd_ys(c, mi)) / (c->t[mi] - c->t[a]),
+               after = (dd_ys(c, top) - dd_ys(c, kend)) / (c->t[kend] - c->t[top]);
         if (after > SPIKE_RATIO * before)
           ok = 0;
       }
@@ -881,7 +944,7 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
         continue;
       }
       for (k = j; k < top; k++)
-        if (c->ys[k] >= best - fmax(2.0 * c->sigma / sqrt(5.0), c->res))
+        if (dd_ys(c, k) >= best - fmax(2.0 * c->sigma / sqrt(5.0), c->res))
           break;
       *m = mi;
       *pk = k;
@@ -890,6 +953,7 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
     }
   }
   free(sm.q);
+  free(sm.qv);
   return found;
 }
 
@@ -927,7 +991,7 @@ int ff_detect_run(const double *t_s, const double *temp_c, size_t n,
     c.tf0 = 0.0;               /* ice point */
   }
   if (estimate_noise(&c) != 0 || smooth(&c) != 0) {
-    free(c.ys);
+    smooth_free(&c);
     return ff_diag_set(d, FF_EIO, NULL, "out of memory");
   }
   while (from < n) {
@@ -943,7 +1007,7 @@ int ff_detect_run(const double *t_s, const double *temp_c, size_t n,
       break_event(&c, &e, seg0, k, b_end, thaw);
       if (push(out, &e) != 0)
         goto oom;
-      nxt = melted(&c, b_end, c.ys[k] + MELT_MARGIN_K);
+      nxt = melted(&c, b_end, dd_ys(&c, k) + MELT_MARGIN_K);
       seg0 = nxt;
       from = nxt;
       continue;
@@ -955,15 +1019,15 @@ int ff_detect_run(const double *t_s, const double *temp_c, size_t n,
     recalescence_event(&c, &e, seg0, m, pk, b_end, thaw);
     if (push(out, &e) != 0)
       goto oom;
-    nxt = melted(&c, b_end, c.ys[pk] + fmax(MELT_MARGIN_K,
+    nxt = melted(&c, b_end, dd_ys(&c, pk) + fmax(MELT_MARGIN_K,
                                             rise_threshold(&c)));
     seg0 = nxt;
     from = nxt;
   }
-  free(c.ys);
+  smooth_free(&c);
   return FF_OK;
 oom:
-  free(c.ys);
+  smooth_free(&c);
   ff_event_list_release(out);
   return ff_diag_set(d, FF_EIO, NULL, "out of memory");
 }

@@ -5,12 +5,30 @@
 #include <stddef.h>
 #include "frostfit/detect.h"
 
-/* One channel being analysed. Arrays borrowed from the caller except ys. */
+/*
+ * The lightly smoothed readings (a centred moving average of 2 h + 1),
+ * computed a block at a time when first asked for and kept in a few
+ * blocks, least recently filled first out: a whole copy of a 10 Hz
+ * channel of days would cost as much memory as the channel. Each value is
+ * the same sum in the same order whenever it is computed.
+ */
+#define YS_BLOCK 8192          /* values per block (a power of two) */
+#define YS_WAYS 8              /* blocks kept at most */
+struct ys_cache {
+  double *v;                   /* ways blocks of YS_BLOCK values */
+  size_t tag[YS_WAYS];         /* block number + 1 held; 0 = empty */
+  unsigned long filled[YS_WAYS]; /* when each was filled */
+  unsigned long clock;
+  unsigned ways, last;         /* blocks kept; the one last read */
+};
+
+/* One channel being analysed. Arrays borrowed from the caller. */
 struct dctx {
   const double *t, *y;
   size_t n;
-  double *ys;                  /* lightly smoothed copy (owned) */
-  int ys_nan;                  /* ys holds a NaN (overflowed sums) */
+  size_t h;                    /* half width of the smoothing */
+  struct ys_cache *ysc;        /* smoothed readings (owned) */
+  int ys_nan;                  /* a smoothed value is NaN (overflow) */
   double sigma;                /* noise sd of one reading, K */
   double res;                  /* resolution used, K (0 = none seen) */
   double dt;                   /* median sampling interval, s */
@@ -18,6 +36,17 @@ struct dctx {
   double cpl, cps, lat;        /* J/(g K), J/(g K), J/g */
   double tf0;                  /* the solvent's tabulated freezing point, C */
 };
+
+/* The smoothed reading i (slow path: finds or fills its block). */
+double dd_ys_fill(const struct dctx *c, size_t i);
+static inline double dd_ys(const struct dctx *c, size_t i)
+{
+  const struct ys_cache *k = c->ysc;
+
+  if (k->tag[k->last] == i / YS_BLOCK + 1)
+    return k->v[(size_t)k->last * YS_BLOCK + i % YS_BLOCK];
+  return dd_ys_fill(c, i);
+}
 
 /* Index ranges are half-open [i0, i1). */
 size_t dd_index_at(const struct dctx *c, double t_s);

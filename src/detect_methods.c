@@ -567,7 +567,7 @@ static int model_pass(const struct dctx *c, const struct ff_event *e,
     double cap = (1.0 - xc) * c->cpl + xc * c->cps;
     double la = lnext, lb = ff_event_eval_liquid(&tmp, c->t[b]);
     lnext = lb;
-    double da = c->ys[a] - la, db = c->ys[b] - lb;
+    double da = dd_ys(c, a) - la, db = dd_ys(c, b) - lb;
     x[j] = x[j - 1] + (cap * (db - da)
                        + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) / tau
                        + (cap - c->cpl) * (lb - la)) / c->lat;
