@@ -5,6 +5,7 @@
 #include "detect_impl.h"
 
 #include <math.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -212,26 +213,107 @@ static double quantum(const struct dctx *c, double step, size_t zeros)
  * var(y[i+1] - 2 y[i] + y[i-1]) = 6 sigma^2; MAD * 1.4826 estimates sd.
  * Resolution: see quantum().
  */
+/* The values whose medians estimate_noise takes: which 0, the absolute
+ * second difference at i (1 <= i < n - 1); 1, the time step at i
+ * (1 <= i < n). */
+static double est_value(const struct dctx *c, int which, size_t i)
+{
+  return which == 0 ? fabs(c->y[i + 1] - 2.0 * c->y[i] + c->y[i - 1])
+                    : c->t[i] - c->t[i - 1];
+}
+
+/* Channels longer than this take their medians without a copy. */
+#define MEDIAN_COPY_MAX 65536
+#define RADIX_BITS 16
+#define RADIX (1u << RADIX_BITS)
+
+/*
+ * The value of rank r (0-based) among est_value(c, which, i), i in
+ * [i0, i1), without a copy: a radix selection on the bit patterns, 16 bits
+ * a pass. The values are never negative, zero or NaN's sign aside (+0 and
+ * positive numbers and +inf only, by construction, checked by the
+ * caller), and such doubles order as their bit patterns do, so the value
+ * found is exactly the one a sort would put at r.
+ */
+static double est_select(const struct dctx *c, int which, size_t i0,
+                         size_t i1, size_t r, size_t *cnt)
+{
+  uint64_t prefix = 0, mask = 0;
+  double x;
+
+  for (int shift = 64 - RADIX_BITS; shift >= 0; shift -= RADIX_BITS) {
+    size_t d = 0;
+    memset(cnt, 0, RADIX * sizeof *cnt);
+    for (size_t i = i0; i < i1; i++) {
+      double v = est_value(c, which, i);
+      uint64_t key;
+      memcpy(&key, &v, sizeof key);
+      if ((key & mask) == prefix)
+        cnt[(key >> shift) & (RADIX - 1)]++;
+    }
+    while (r >= cnt[d])
+      r -= cnt[d++];
+    prefix |= (uint64_t)d << shift;
+    mask |= (uint64_t)(RADIX - 1) << shift;
+  }
+  memcpy(&x, &prefix, sizeof x);
+  return x;
+}
+
+/* Median of est_value over [i0, i1) into *out: the middle value, or the
+ * mean of the two middle values, as gsl_stats_median gives it. cnt: RADIX
+ * counters; NULL: through a copy (short channels). -1 when out of
+ * memory. */
+static int est_median(const struct dctx *c, int which, size_t i0,
+                      size_t i1, size_t *cnt, double *out)
+{
+  size_t m = i1 - i0, lhs = (m - 1) / 2, rhs = m / 2;
+
+  if (cnt == NULL) {
+    double *v = malloc(m * sizeof *v);
+    if (v == NULL)
+      return -1;
+    for (size_t i = i0; i < i1; i++)
+      v[i - i0] = est_value(c, which, i);
+    *out = dd_median(v, m);
+    free(v);
+    return 0;
+  }
+  *out = est_select(c, which, i0, i1, lhs, cnt);
+  if (lhs != rhs)
+    *out = (*out + est_select(c, which, i0, i1, rhs, cnt)) / 2.0;
+  return 0;
+}
+
 static int estimate_noise(struct dctx *c)
 {
-  size_t n = c->n, zeros = 0, m = 0;
-  double *v = malloc(n * sizeof *v), step = INFINITY;
+  size_t n = c->n, zeros = 0, *cnt = NULL;
+  double step = INFINITY, med;
+  int plain = 1, st;
 
-  if (v == NULL)
-    return -1;
-  for (size_t i = 1; i + 1 < n; i++)
-    v[m++] = fabs(c->y[i + 1] - 2.0 * c->y[i] + c->y[i - 1]);
-  c->sigma = 1.4826 * dd_median(v, m) / sqrt(6.0);
+  /* Second differences of finite readings may overflow to +inf but are
+   * never NaN; a NaN would take the copy. */
+  for (size_t i = 1; i + 1 < n && plain; i++)
+    plain = !isnan(est_value(c, 0, i));
+  if (n > MEDIAN_COPY_MAX && plain) {
+    cnt = malloc(RADIX * sizeof *cnt);
+    if (cnt == NULL)
+      return -1;
+  }
+  st = est_median(c, 0, 1, n - 1, cnt, &med);
+  c->sigma = 1.4826 * med / sqrt(6.0);
   for (size_t i = 1; i < n; i++) {
     double s = fabs(c->y[i] - c->y[i - 1]);
     if (!(s > 0.0))
       zeros++;
     else if (s < step)
       step = s;
-    v[i - 1] = c->t[i] - c->t[i - 1];
   }
-  c->dt = dd_median(v, n - 1);
-  free(v);
+  if (st == 0)
+    st = est_median(c, 1, 1, n, cnt, &c->dt);
+  free(cnt);
+  if (st != 0)
+    return -1;
   if (c->p->resolution_k > 0.0)
     c->res = c->p->resolution_k;
   else
