@@ -1,15 +1,14 @@
 /* series.c - the series pipeline: sheet rows -> data files -> freeze events
  * -> per-run thermodynamics; fits per solute in series_fit.c. */
 #include "frostfit/series.h"
+#include "frostfit/parallel.h"
 
 #include <math.h>
-#include <pthread.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <strings.h>
-#include <unistd.h>
 
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
@@ -45,55 +44,6 @@ void series_fail(const struct ff_sheet *sh, struct ff_series_run *r, int col,
   va_end(ap);
   r->status = st;
   ff_diag_set(&r->diag, st, &at, "run '%s': %s", row->run, text);
-}
-
-/* ---- the per-run work on both cores ---- */
-
-struct pool {
-  void (*fn)(void *ctx, size_t i);
-  void *ctx;
-  size_t n, next;
-  pthread_mutex_t lock;
-};
-
-static void *pool_worker(void *arg)
-{
-  struct pool *pl = arg;
-
-  for (;;) {
-    size_t i;
-    pthread_mutex_lock(&pl->lock);
-    i = pl->next++;
-    pthread_mutex_unlock(&pl->lock);
-    if (i >= pl->n)
-      return NULL;
-    pl->fn(pl->ctx, i);
-  }
-}
-
-/* fn(ctx, i) for i in [0, n), on min(n, online CPUs) threads (the caller
- * is one of them). Each i touches only its own item, so the results do
- * not depend on which thread ran it or when. */
-static void parallel_for(size_t n, void (*fn)(void *ctx, size_t i),
-                         void *ctx)
-{
-  struct pool pl = { .fn = fn, .ctx = ctx, .n = n };
-  pthread_t th[64];
-  long cpus = sysconf(_SC_NPROCESSORS_ONLN);
-  size_t nth = cpus > 1 ? (size_t)cpus : 1, started = 0;
-
-  if (nth > n)
-    nth = n;
-  if (nth > sizeof th / sizeof th[0])
-    nth = sizeof th / sizeof th[0];
-  pthread_mutex_init(&pl.lock, NULL);
-  for (size_t i = 1; i < nth; i++)
-    if (pthread_create(&th[started], NULL, pool_worker, &pl) == 0)
-      started++;
-  pool_worker(&pl);
-  for (size_t i = 0; i < started; i++)
-    pthread_join(th[i], NULL);
-  pthread_mutex_destroy(&pl.lock);
 }
 
 /* ---- data files and freeze events, each read once ---- */
@@ -382,7 +332,7 @@ static int read_ahead(struct ff_series *out, struct caches *k,
     if (out->runs[i].status == FF_OK
         && file_entry(k, sh->row[i].path) == NULL)
       return FF_EIO;
-  parallel_for(k->nf, read_one, &a);
+  ff_parallel_for(k->nf, read_one, &a);
   for (size_t i = 0; i < out->n_runs; i++) {
     const struct ff_sheet_row *row = &sh->row[i];
     const struct ff_diag *why = NULL;
@@ -403,7 +353,7 @@ static int read_ahead(struct ff_series *out, struct caches *k,
                       row->thermo_res_k, row->method) == NULL)
       return FF_EIO;
   }
-  parallel_for(k->nc, detect_one, &a);
+  ff_parallel_for(k->nc, detect_one, &a);
   return FF_OK;
 }
 
@@ -811,7 +761,7 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
   /* 3. Samples, standards (i against the table), unknowns. */
   {
     struct per_run pr = { out, sheet, o };
-    parallel_for(out->n_runs, numbers_one, &pr);
+    ff_parallel_for(out->n_runs, numbers_one, &pr);
   }
 
   /* 4. Fits per solute and per unknown (series_fit.c). */

@@ -2,7 +2,6 @@
  * event of every channel of a logger CSV (import, then detect). */
 #include <limits.h>
 #include <math.h>
-#include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -10,6 +9,7 @@
 
 #include "cli.h"
 #include "frostfit/detect.h"
+#include "frostfit/parallel.h"
 #include "frostfit/import.h"
 #include "frostfit/json.h"
 #include "frostfit/plot.h"
@@ -68,90 +68,58 @@ struct chan {
   char note[600];                  /* "" when events were found */
 };
 
-/* The channels shared by the detection workers: each takes the next
- * channel not yet taken; the dataset is only read. */
-struct detect_pool {
+/* The channels shared by the detection workers; the dataset is only
+ * read. */
+struct detect_job {
   const struct ff_dataset *ds;
   const struct ff_detect_params *dp;
   struct chan *ch;
-  size_t nch, next;
-  pthread_mutex_t lock;
 };
 
-/* Detection of one channel. A channel with no missing value is analysed
- * in the dataset's own arrays; otherwise it is compacted into the worker's
- * buffers *t, *y (allocated on first need, ds->n values each). */
-static void detect_channel(const struct ff_dataset *ds,
-                           const struct ff_detect_params *dp,
-                           struct chan *c, double **t, double **y)
+/* Detection of channel i. A channel with no missing value is analysed in
+ * the dataset's own arrays; otherwise it is compacted into a copy of its
+ * present values, freed when done. */
+static void detect_channel(void *ctx, size_t i)
 {
+  const struct detect_job *job = ctx;
+  const struct ff_dataset *ds = job->ds;
+  struct chan *c = &job->ch[i];
   const struct ff_channel *fc = &ds->ch[c->index];
   struct ff_diag dd = FF_DIAG_INIT;
   const double *tx = ds->t_s, *yx = fc->temp_c;
+  double *t = NULL, *y = NULL;
   size_t m = ds->n;
 
   if (fc->n_missing > 0) {
-    if (*t == NULL)
-      *t = malloc((ds->n ? ds->n : 1) * sizeof **t);
-    if (*y == NULL)
-      *y = malloc((ds->n ? ds->n : 1) * sizeof **y);
-    if (*t == NULL || *y == NULL) {
+    t = malloc((ds->n ? ds->n : 1) * sizeof *t);
+    y = malloc((ds->n ? ds->n : 1) * sizeof *y);
+    if (t == NULL || y == NULL) {
+      free(t);
+      free(y);
       c->status = FF_EIO;
       snprintf(c->note, sizeof c->note, "out of memory");
       return;
     }
-    m = ff_dataset_channel_xy(ds, c->index, *t, *y);
-    tx = *t;
-    yx = *y;
+    m = ff_dataset_channel_xy(ds, c->index, t, y);
+    tx = t;
+    yx = y;
   }
-  c->status = ff_detect_run(tx, yx, m, dp, &c->ev, &dd);
+  c->status = ff_detect_run(tx, yx, m, job->dp, &c->ev, &dd);
   if (c->status != FF_OK)
     snprintf(c->note, sizeof c->note, "%s", dd.msg);
-}
-
-static void *detect_worker(void *arg)
-{
-  struct detect_pool *pl = arg;
-  double *t = NULL, *y = NULL;
-
-  for (;;) {
-    size_t k;
-    pthread_mutex_lock(&pl->lock);
-    k = pl->next++;
-    pthread_mutex_unlock(&pl->lock);
-    if (k >= pl->nch)
-      break;
-    detect_channel(pl->ds, pl->dp, &pl->ch[k], &t, &y);
-  }
   free(t);
   free(y);
-  return NULL;
 }
 
-/* Every channel's detection, on min(channels, online CPUs) threads; the
- * results land in ch[] in channel order whatever finishes first. */
+/* Every channel's detection on the worker pool; the results land in ch[]
+ * in channel order whatever finishes first. */
 static void detect_all(const struct ff_dataset *ds,
                        const struct ff_detect_params *dp, struct chan *ch,
                        size_t nch)
 {
-  struct detect_pool pl = { .ds = ds, .dp = dp, .ch = ch, .nch = nch };
-  pthread_t th[64];
-  long cpus = sysconf(_SC_NPROCESSORS_ONLN);
-  size_t nth = cpus > 1 ? (size_t)cpus : 1, started = 0;
+  struct detect_job job = { ds, dp, ch };
 
-  if (nth > nch)
-    nth = nch;
-  if (nth > sizeof th / sizeof th[0])
-    nth = sizeof th / sizeof th[0];
-  pthread_mutex_init(&pl.lock, NULL);
-  /* The calling thread is one of the workers. */
-  for (size_t i = 1; i < nth; i++)
-    if (pthread_create(&th[started], NULL, detect_worker, &pl) == 0)
-      started++;
-  detect_worker(&pl);
-  for (size_t i = 0; i < started; i++)
-    pthread_join(th[i], NULL);
-  pthread_mutex_destroy(&pl.lock);
+  ff_parallel_for(nch, detect_channel, &job);
 }
 
 /* x with prec decimals ('e': exponent form), "-" when absent. */
