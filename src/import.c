@@ -8,6 +8,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <strings.h>
 
 #include <csv.h>
@@ -504,6 +505,7 @@ struct ff_dataset *ff_import_file(const char *path,
   FILE *f;
   char *buf;
   size_t len;
+  unsigned long long done = 0, total = 0;
   int eof, st, csv_ready = 0;
 
   if (o == NULL)
@@ -543,8 +545,18 @@ struct ff_dataset *ff_import_file(const char *path,
   csv_ready = 1;
   if (feed(&r, buf + sn.data_offset, len - sn.data_offset) != 0)
     goto fail;
+  {
+    struct stat fst;
+    if (o->progress != NULL && fstat(fileno(f), &fst) == 0
+        && S_ISREG(fst.st_mode))
+      total = (unsigned long long)fst.st_size;
+  }
+  done = len;
   while (!eof) {
+    if (o->progress != NULL)
+      o->progress(o->progress_ctx, done, total);
     len = read_full(f, buf, FF_IMPORT_CHUNK);
+    done += len;
     if (ferror(f)) {
       loc.line = r.line;
       ff_diag_set(d, FF_EIO, &loc, "cannot read: %s", strerror(errno));

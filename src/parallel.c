@@ -9,7 +9,9 @@
 struct pool {
   void (*fn)(void *ctx, size_t i);
   void *ctx;
-  size_t n, next;
+  void (*progress)(void *pctx, size_t done, size_t total);
+  void *pctx;
+  size_t n, next, done;
   pthread_mutex_t lock;
 };
 
@@ -25,12 +27,27 @@ static void *pool_worker(void *arg)
     if (i >= pl->n)
       return NULL;
     pl->fn(pl->ctx, i);
+    if (pl->progress != NULL) {
+      pthread_mutex_lock(&pl->lock);
+      pl->progress(pl->pctx, ++pl->done, pl->n);
+      pthread_mutex_unlock(&pl->lock);
+    }
   }
 }
 
 void ff_parallel_for(size_t n, void (*fn)(void *ctx, size_t i), void *ctx)
 {
-  struct pool pl = { .fn = fn, .ctx = ctx, .n = n };
+  ff_parallel_for_progress(n, fn, ctx, NULL, NULL);
+}
+
+void ff_parallel_for_progress(size_t n, void (*fn)(void *ctx, size_t i),
+                              void *ctx,
+                              void (*progress)(void *pctx, size_t done,
+                                               size_t total),
+                              void *pctx)
+{
+  struct pool pl = { .fn = fn, .ctx = ctx, .progress = progress,
+                     .pctx = pctx, .n = n };
   pthread_t th[MAX_THREADS];
   long cpus = sysconf(_SC_NPROCESSORS_ONLN);
   size_t nth = cpus > 1 ? (size_t)cpus : 1, started = 0;

@@ -323,16 +323,32 @@ static void detect_one(void *ctx, size_t i)
     channel_detect(a->out->ds[cc->ds], cc);
 }
 
+/* The series' progress callback under the pool's one-at-a-time calls. */
+struct stage_progress {
+  const struct ff_series_opts *o;
+  const char *stage;
+};
+
+static void stage_tick(void *ctx, size_t done, size_t total)
+{
+  const struct stage_progress *sp = ctx;
+
+  sp->o->progress(sp->o->progress_ctx, sp->stage, done, total);
+}
+
 static int read_ahead(struct ff_series *out, struct caches *k,
-                      const struct ff_sheet *sh)
+                      const struct ff_sheet *sh,
+                      const struct ff_series_opts *o)
 {
   struct ahead a = { out, k };
+  struct stage_progress rd = { o, "reading" }, an = { o, "analysing" };
+  void (*tick)(void *, size_t, size_t) = o->progress ? stage_tick : NULL;
 
   for (size_t i = 0; i < out->n_runs; i++)
     if (out->runs[i].status == FF_OK
         && file_entry(k, sh->row[i].path) == NULL)
       return FF_EIO;
-  ff_parallel_for(k->nf, read_one, &a);
+  ff_parallel_for_progress(k->nf, read_one, &a, tick, &rd);
   for (size_t i = 0; i < out->n_runs; i++) {
     const struct ff_sheet_row *row = &sh->row[i];
     const struct ff_diag *why = NULL;
@@ -353,7 +369,7 @@ static int read_ahead(struct ff_series *out, struct caches *k,
                       row->thermo_res_k, row->method) == NULL)
       return FF_EIO;
   }
-  ff_parallel_for(k->nc, detect_one, &a);
+  ff_parallel_for_progress(k->nc, detect_one, &a, tick, &an);
   return FF_OK;
 }
 
@@ -733,7 +749,7 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
                                              r->particles_how,
                                              sizeof r->particles_how);
   }
-  st = read_ahead(out, &k, sheet);
+  st = read_ahead(out, &k, sheet, o);
   for (size_t i = 0; i < sheet->n && st == FF_OK; i++)
     if (out->runs[i].status == FF_OK)
       st = freezing_point(out, &k, sheet, &out->runs[i]);

@@ -29,6 +29,11 @@ struct ff_import_opts {
   const char *time_column;         /* header name or 1-based column; NULL */
   const double *sentinels;         /* extra missing-value markers, or NULL */
   size_t n_sentinels;
+  /* Called after each chunk read: bytes so far and the file's size (0 when
+   * unknown, e.g. a pipe). NULL: nothing. For a progress bar. */
+  void (*progress)(void *ctx, unsigned long long done,
+                   unsigned long long total);
+  void *progress_ctx;
 };
 #define FF_IMPORT_OPTS_DEFAULT { 0 }
 

@@ -14,4 +14,16 @@
  */
 void ff_parallel_for(size_t n, void (*fn)(void *ctx, size_t i), void *ctx);
 
+/*
+ * The same, and after each item progress(pctx, done, n) is called with the
+ * count finished so far; the calls never overlap (one at a time, under the
+ * pool's lock), so progress needs no locking of its own. progress may be
+ * NULL.
+ */
+void ff_parallel_for_progress(size_t n, void (*fn)(void *ctx, size_t i),
+                              void *ctx,
+                              void (*progress)(void *pctx, size_t done,
+                                               size_t total),
+                              void *pctx);
+
 #endif /* FF_PARALLEL_H */

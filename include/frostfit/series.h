@@ -27,6 +27,10 @@ struct ff_series_opts {
   double confidence;           /* of the regression intervals */
   double balance_res_g;        /* balance resolution when the sheet has
                                   none: 0.001 g (common practice, no source) */
+  /* Called as work finishes (stage "reading" or "analysing", items done of
+   * total), never two calls at once; NULL: nothing. For a progress bar. */
+  void (*progress)(void *ctx, const char *stage, size_t done, size_t total);
+  void *progress_ctx;
 };
 #define FF_SERIES_OPTS_DEFAULT                                              \
   { .solvents = NULL, .atoms = NULL, .mc_draws = 4000, .mc_fit_draws = 300, \

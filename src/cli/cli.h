@@ -2,6 +2,7 @@
 #ifndef FF_CLI_H
 #define FF_CLI_H
 
+#include <stddef.h>
 #include <stdio.h>
 #include "frostfit/diag.h"
 
@@ -40,6 +41,23 @@ int ff_cli_finish(int status);
  */
 int ff_cli_figure_would_replace(const char *fig_dir, const char *input,
                                 int series_names);
+
+/* A progress bar on stderr, drawn only when stderr is a terminal and not
+ * quiet; ff_cli_progress_end clears it before anything else is printed. */
+struct ff_cli_progress {
+  const char *label;           /* e.g. the file name; borrowed */
+  int on, shown;
+  double last_s;
+};
+void ff_cli_progress_init(struct ff_cli_progress *p, const char *label,
+                          int quiet);
+/* Callbacks in the shape frostfit/import.h and frostfit/series.h take;
+ * ctx is the struct ff_cli_progress. */
+void ff_cli_progress_bytes(void *ctx, unsigned long long done,
+                           unsigned long long total);
+void ff_cli_progress_items(void *ctx, const char *stage, size_t done,
+                           size_t total);
+void ff_cli_progress_end(struct ff_cli_progress *p);
 
 /* The folder that holds solvents.csv etc.; see DEVELOPERS.md. */
 const char *ff_cli_datadir(void);

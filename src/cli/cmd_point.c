@@ -41,6 +41,7 @@ static void help(void)
          "  --figures DIR      a figure of every trusted event (gnuplot script,\n"
          "                     data and rendering) into DIR\n"
          "  --format LIST      figure formats: png, svg, pdf or all (png)\n"
+         "  --quiet            no progress bar (it shows only on a terminal)\n"
          "  --help             this text\n\n"
          "methods:\n"
          "  model        energy balance: Newton fit of the liquid branch gives\n"
@@ -113,13 +114,19 @@ static void detect_channel(void *ctx, size_t i)
 
 /* Every channel's detection on the worker pool; the results land in ch[]
  * in channel order whatever finishes first. */
+static void channel_done(void *ctx, size_t done, size_t total)
+{
+  ff_cli_progress_items(ctx, "analysing channels", done, total);
+}
+
 static void detect_all(const struct ff_dataset *ds,
                        const struct ff_detect_params *dp, struct chan *ch,
-                       size_t nch)
+                       size_t nch, struct ff_cli_progress *prog)
 {
   struct detect_job job = { ds, dp, ch };
 
-  ff_parallel_for(nch, detect_channel, &job);
+  ff_parallel_for_progress(nch, detect_channel, &job, channel_done, prog);
+  ff_cli_progress_end(prog);
 }
 
 /* x with prec decimals ('e': exponent form), "-" when absent. */
@@ -382,8 +389,9 @@ int ff_cmd_point(int argc, char **argv)
   struct chan *ch = NULL;
   double *t = NULL, *y = NULL;
   size_t nch = 0, trusted = 0;
-  int json = 0, all = 0, st = FF_OK;
+  int json = 0, all = 0, quiet = 0, st = FF_OK;
   char tabpath[4200];
+  struct ff_cli_progress prog;
 
   for (int i = 1; i < argc; i++) {
     const char *a = argv[i];
@@ -394,6 +402,8 @@ int ff_cmd_point(int argc, char **argv)
       json = 1;
     } else if (strcmp(a, "--all-methods") == 0) {
       all = 1;
+    } else if (strcmp(a, "--quiet") == 0) {
+      quiet = 1;
     } else if (strcmp(a, "--channel") == 0 || strcmp(a, "--method") == 0
                || strcmp(a, "--solvent") == 0
                || strcmp(a, "--resolution") == 0
@@ -469,7 +479,11 @@ int ff_cmd_point(int argc, char **argv)
   ff_diag_clear(&d);
   dp.solvent = sv;
 
+  ff_cli_progress_init(&prog, path, quiet);
+  io.progress = ff_cli_progress_bytes;
+  io.progress_ctx = &prog;
   ds = ff_import_file(path, &io, &d);
+  ff_cli_progress_end(&prog);
   if (ds == NULL) {
     ff_solvent_table_release(&tab);
     return ff_cli_fail(&d);
@@ -493,7 +507,7 @@ int ff_cmd_point(int argc, char **argv)
       ch[k].index = k;
     nch = ds->n_channels;
   }
-  detect_all(ds, &dp, ch, nch);
+  detect_all(ds, &dp, ch, nch, &prog);
   for (size_t c = 0; c < nch; c++) {
     size_t m = 0;
     if (ch[c].status == FF_EIO) {

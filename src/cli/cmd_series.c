@@ -874,6 +874,7 @@ int ff_cmd_series(int argc, char **argv)
   struct ff_sheet sh = FF_SHEET_INIT;
   struct ff_series s = FF_SERIES_INIT;
   struct ff_series_opts so = FF_SERIES_OPTS_DEFAULT;
+  struct ff_cli_progress prog;
   struct ff_diag d = FF_DIAG_INIT;
   char buf[1200];
   const char *clash;
@@ -913,7 +914,11 @@ int ff_cmd_series(int argc, char **argv)
   so.mc_draws = (size_t)o.mc;
   so.seed = (unsigned long)o.seed;
   ff_diag_clear(&d);
+  ff_cli_progress_init(&prog, o.sheet, o.quiet);
+  so.progress = ff_cli_progress_items;
+  so.progress_ctx = &prog;
   st = ff_series_run(&sh, &so, &s, &d);
+  ff_cli_progress_end(&prog);
   if (st == FF_EIO && s.n_runs == 0) {
     st = ff_cli_fail(&d);
     goto done;

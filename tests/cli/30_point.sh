@@ -101,3 +101,20 @@ mkdir -p "$TMP/pfig"
 "$FF" simulate --molality 0.05 --i 2 --out "$TMP/pfig/render.gp" >/dev/null 2>&1
 run "$FF" point "$TMP/pfig/render.gp" --figures "$TMP/pfig"
 expect_rc 1; expect_no_out; expect_err "holds the input"
+
+# Progress goes to a terminal only: nothing extra on a redirected stderr.
+CASE="point: no progress text when stderr is not a terminal"
+"$FF" simulate --molality 0.1 --i 2 --out "$TMP/prog.csv" >/dev/null 2>&1
+run "$FF" point "$TMP/prog.csv" --json
+expect_rc 0; expect_json
+if [ -s "$ERR" ]; then bad "stderr not empty"; else ok; fi
+CASE="point --quiet"
+run "$FF" point "$TMP/prog.csv" --quiet
+expect_rc 0; expect_out 'freeze event'
+if command -v script >/dev/null 2>&1; then
+  CASE="point: a progress bar on a terminal"
+  script -qc "'$FF' point '$TMP/prog.csv' --json >/dev/null" /dev/null >"$TMP/tty" 2>&1
+  if grep -q 'analysing channels' "$TMP/tty"; then ok; else bad "no progress bar on a terminal"; fi
+  script -qc "'$FF' point '$TMP/prog.csv' --json --quiet >/dev/null" /dev/null >"$TMP/tty" 2>&1
+  if grep -q 'analysing' "$TMP/tty"; then bad "--quiet still drew a bar"; else ok; fi
+fi
