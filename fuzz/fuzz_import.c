@@ -8,35 +8,14 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/mman.h>
 #include <unistd.h>
 #include "frostfit/import.h"
 
+#include "memfile.h"
+
+static const char *path;   /* the current input, see memfile.h */
+
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
-
-/* The importer reads by path: the input goes into an in-memory file that is
- * reached through /proc/self/fd, rewritten for every input. */
-static int fd = -1;
-static char path[64];
-
-static int load(const uint8_t *data, size_t size)
-{
-  if (fd < 0) {
-    fd = memfd_create("fuzz_import", 0);
-    if (fd < 0)
-      abort();
-    snprintf(path, sizeof path, "/proc/self/fd/%d", fd);
-  }
-  if (ftruncate(fd, 0) != 0)
-    abort();
-  for (size_t done = 0; done < size;) {
-    ssize_t n = pwrite(fd, data + done, size - done, (off_t)done);
-    if (n <= 0)
-      abort();
-    done += (size_t)n;
-  }
-  return 0;
-}
 
 /* What import.h promises of every dataset it returns; reading every value
  * also lets AddressSanitizer check the arrays are as long as claimed. */
@@ -75,7 +54,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
   static const char dec[] = { '.', ',' };
   struct ff_import_opts o = FF_IMPORT_OPTS_DEFAULT;
 
-  load(data, size);
+  path = memfile_load("fuzz_import", data, size);
   run(&o);                     /* everything sniffed */
   if (size > 0 && size % 4 == 0) {
     /* forced dialects as a user gives them on the command line */

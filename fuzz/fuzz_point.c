@@ -8,33 +8,15 @@
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
-#include <sys/mman.h>
 #include <unistd.h>
 #include "frostfit/detect.h"
 #include "frostfit/import.h"
 
+#include "memfile.h"
+
+static const char *path;   /* the current input, see memfile.h */
+
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
-
-static int fd = -1;
-static char path[64];
-
-static void load(const uint8_t *data, size_t size)
-{
-  if (fd < 0) {
-    fd = memfd_create("fuzz_point", 0);
-    if (fd < 0)
-      abort();
-    snprintf(path, sizeof path, "/proc/self/fd/%d", fd);
-  }
-  if (ftruncate(fd, 0) != 0)
-    abort();
-  for (size_t done = 0; done < size;) {
-    ssize_t n = pwrite(fd, data + done, size - done, (off_t)done);
-    if (n <= 0)
-      abort();
-    done += (size_t)n;
-  }
-}
 
 /* detect.h: a trusted event has a finite freezing point and uncertainty. */
 static void check(const struct ff_event_list *l)
@@ -56,7 +38,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
   struct ff_dataset *ds;
   double *t, *y;
 
-  load(data, size);
+  path = memfile_load("fuzz_point", data, size);
   ds = ff_import_file(path, &o, &d);
   if (ds == NULL)
     return 0;

@@ -7,32 +7,14 @@
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
-#include <sys/mman.h>
 #include <unistd.h>
 #include "frostfit/sheet.h"
 
+#include "memfile.h"
+
+static const char *path;   /* the current input, see memfile.h */
+
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
-
-static int fd = -1;
-static char path[64];
-
-static void load(const uint8_t *data, size_t size)
-{
-  if (fd < 0) {
-    fd = memfd_create("fuzz_sheet", 0);
-    if (fd < 0)
-      abort();
-    snprintf(path, sizeof path, "/proc/self/fd/%d", fd);
-  }
-  if (ftruncate(fd, 0) != 0)
-    abort();
-  for (size_t done = 0; done < size;) {
-    ssize_t n = pwrite(fd, data + done, size - done, (off_t)done);
-    if (n <= 0)
-      abort();
-    done += (size_t)n;
-  }
-}
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
@@ -40,7 +22,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
   struct ff_diag d = FF_DIAG_INIT;
   int st;
 
-  load(data, size);
+  path = memfile_load("fuzz_sheet", data, size);
   st = ff_sheet_read(path, &s, &d);
   if (st == FF_OK && s.n_bad != 0)
     abort();                   /* header: OK only when every row is good */
