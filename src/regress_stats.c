@@ -362,7 +362,8 @@ static void mm_fail(struct ff_mm_fit *f, enum ff_mm_method m, size_t n,
 static int mm_line(const double *c, const double *y, const double *u,
                    size_t n, double conf, double *c0, double *u0, double *lo,
                    double *hi, double *slope, double *u_slope, double *chi2,
-                   size_t *dof, char *why, size_t nwhy)
+                   size_t *dof, double *cov01, double *k_cov, char *why,
+                   size_t nwhy)
 {
   if (n >= 3) {
     struct ff_line L;
@@ -373,6 +374,7 @@ static int mm_line(const double *c, const double *y, const double *u,
     }
     *c0 = L.c0; *u0 = L.se0; *lo = L.ci0[0]; *hi = L.ci0[1];
     *slope = L.c1; *u_slope = L.se1; *chi2 = L.chi2; *dof = L.dof;
+    *cov01 = L.cov01; *k_cov = L.t_crit;
     return 0;
   }
   double w[2] = { 1.0 / (u[0] * u[0]), 1.0 / (u[1] * u[1]) };
@@ -386,6 +388,7 @@ static int mm_line(const double *c, const double *y, const double *u,
   double k = gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * conf);
   *c0 = a; *u0 = sqrt(c00); *lo = a - k * *u0; *hi = a + k * *u0;
   *slope = b; *u_slope = sqrt(c11); *chi2 = 0.0; *dof = 0;
+  *cov01 = c01; *k_cov = k;
   return 0;
 }
 
@@ -448,9 +451,10 @@ int ff_regress_molar_mass(const double *conc, const double *m_app_g_mol,
   L->n = n;
   if (mm_line(conc, m_app_g_mol, u_m_g_mol, n, conf, &L->m0_g_mol,
               &L->u_m0_g_mol, &L->ci[0], &L->ci[1], &L->slope, &L->u_slope,
-              &L->chi2, &L->dof, why, sizeof why) != 0)
+              &L->chi2, &L->dof, &L->cov01, &L->k_band, why,
+              sizeof why) != 0)
     mm_fail(L, FF_MM_LINEAR, n, why);
-  else if (!(L->m0_g_mol > 0.0))
+  else if ((L->u_line0 = L->u_m0_g_mol), !(L->m0_g_mol > 0.0))
     mm_fail(L, FF_MM_LINEAR, n, "extrapolated molar mass is not positive");
   else
     mm_aicc(L);
@@ -467,12 +471,14 @@ int ff_regress_molar_mass(const double *conc, const double *m_app_g_mol,
   }
   double a, ua, lo, hi;
   if (mm_line(conc, y, uy, n, conf, &a, &ua, &lo, &hi, &R->slope,
-              &R->u_slope, &R->chi2, &R->dof, why, sizeof why) != 0)
+              &R->u_slope, &R->chi2, &R->dof, &R->cov01, &R->k_band, why,
+              sizeof why) != 0)
     mm_fail(R, FF_MM_RECIPROCAL, n, why);
   else if (!(a > 0.0) || !(lo > 0.0))
     mm_fail(R, FF_MM_RECIPROCAL, n, "intercept of 1/M not clearly positive");
   else {
     R->m0_g_mol = 1.0 / a;
+    R->u_line0 = ua;
     R->u_m0_g_mol = ua / (a * a);     /* first-order propagation */
     R->ci[0] = 1.0 / hi;
     R->ci[1] = 1.0 / lo;

@@ -820,3 +820,27 @@ Test(regress, band_matches_linear_propagation, .init = setup)
   cr_expect_eq(ff_regress_eval_u(&f, -1.0, &iv, &uv), FF_EUNTRUSTED);
   ff_fit_release(&f);
 }
+
+/* The unknown's band at zero concentration is its interval: k u(c0) is the
+ * half-width of the reported CI (same coverage factor, linear form), and
+ * the band follows linear propagation elsewhere (GUM 5.1.2). Data by
+ * construction: M_app = 150 + 0.2 c with stated u 0.5 g/mol. */
+Test(regress, molar_mass_band_matches_interval, .init = setup)
+{
+  const double c[4] = { 2.5, 5.1, 9.7, 14.2 };
+  double m[4], u[4] = { 0.5, 0.5, 0.5, 0.5 };
+  struct ff_mm_result r;
+  struct ff_diag d = FF_DIAG_INIT;
+
+  for (int k = 0; k < 4; k++)
+    m[k] = 150.0 + 0.2 * c[k] + (k % 2 ? 0.1 : -0.1);
+  cr_assert_eq(ff_regress_molar_mass(c, m, u, 4, 0.95, &r, &d), FF_OK, "%s",
+               d.msg);
+  const struct ff_mm_fit *L = &r.linear;
+  cr_assert_eq(L->status, FF_OK);
+  cr_expect_float_eq(L->k_band * L->u_line0, 0.5 * (L->ci[1] - L->ci[0]),
+                     1e-9, "band %.9g, interval half-width %.9g",
+                     L->k_band * L->u_line0, 0.5 * (L->ci[1] - L->ci[0]));
+  cr_expect(isfinite(L->cov01));
+  cr_expect_lt(L->cov01, 0.0, "intercept and slope anticorrelate for x > 0");
+}

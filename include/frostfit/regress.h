@@ -243,6 +243,10 @@ struct ff_mm_fit {
   size_t n, dof;
   double m0_g_mol, u_m0_g_mol, ci[2];   /* value at zero concentration */
   double slope, u_slope;        /* of M (or of 1/M) against concentration */
+  /* The fitted line y = c0 + slope x (y = M, or 1/M): u(c0), cov(c0,
+   * slope) and the coverage factor of its intervals, for a band
+   * y +- k_band sqrt(u_line0^2 + 2 x cov01 + x^2 u_slope^2). */
+  double u_line0, cov01, k_band;
   double chi2, aicc;
   int has_aicc;
 };

@@ -699,6 +699,7 @@ static int fig_unknown(struct ff_plot_set *ps, const struct ff_series *s,
 {
   size_t n = g->n;
   double *buf = malloc(3 * n * sizeof *buf), fx[CURVE_N], fy[CURVE_N];
+  double flo[CURVE_N], fhi[CURVE_N];
   struct ff_plot_unknown_fig f = { 0 };
   char name[300], title[300];
   double xmax = 0;
@@ -718,11 +719,23 @@ static int fig_unknown(struct ff_plot_set *ps, const struct ff_series *s,
                                 ? &g->mm.linear : &g->mm.reciprocal;
   if (g->mm.preferred != FF_MM_SINGLE && fit->status == FF_OK) {
     sample(0, 1.05 * xmax, fx, CURVE_N);
-    for (size_t k = 0; k < CURVE_N; k++)
-      fy[k] = g->mm.preferred == FF_MM_LINEAR
-              ? fit->m0_g_mol + fit->slope * fx[k]
-              : 1.0 / (1.0 / fit->m0_g_mol + fit->slope * fx[k]);
-    f.fit = (struct ff_plot_curve){ fx, fy, NULL, NULL, CURVE_N };
+    int lin = g->mm.preferred == FF_MM_LINEAR, band = 1;
+    double c0 = lin ? fit->m0_g_mol : 1.0 / fit->m0_g_mol;
+    for (size_t k = 0; k < CURVE_N; k++) {
+      double x = fx[k], yl = c0 + fit->slope * x;
+      double h = fit->k_band
+                 * sqrt(fmax(0.0, fit->u_line0 * fit->u_line0
+                                  + 2.0 * x * fit->cov01
+                                  + x * x * fit->u_slope * fit->u_slope));
+      /* 1/M is fitted for the reciprocal form: its band maps back through
+       * M = 1/y, monotone while y - h stays positive. */
+      fy[k] = lin ? yl : 1.0 / yl;
+      flo[k] = lin ? yl - h : 1.0 / (yl + h);
+      fhi[k] = lin ? yl + h : (yl - h > 0.0 ? 1.0 / (yl - h) : NAN);
+      band = band && isfinite(flo[k]) && isfinite(fhi[k]);
+    }
+    f.fit = (struct ff_plot_curve){ fx, fy, band ? flo : NULL,
+                                    band ? fhi : NULL, CURVE_N };
   }
   snprintf(name, sizeof name, "unknown_%s_%s", g->solute, g->solvent);
   snprintf(title, sizeof title, "%s in %s", g->solute, g->solvent);
