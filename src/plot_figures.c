@@ -118,6 +118,8 @@ static void script_begin(FILE *f, const struct ff_plot_set *s,
     fputc('\n', f);
   fprintf(f, "# ---- end of style ----\n"
              "if (!exists(\"formats\")) formats = '%s'\n"
+             "# frostfit renders to hidden names first, then renames them\n"
+             "if (!exists(\"outprefix\")) outprefix = ''\n"
              "fig_w_cm = %g\nfig_h_cm = %g\n",
           ff_plot_formats_words(s->formats, words, sizeof words), w_cm, h_cm);
 }
@@ -126,7 +128,7 @@ static void loop_begin(FILE *f, const char *stem)
 {
   fprintf(f, "\ndo for [fmt in formats] {\n"
              "  eval term_for(fmt, fig_w_cm, fig_h_cm)\n"
-             "  set output '%s.'.fmt\n"
+             "  set output outprefix.'%s.'.fmt\n"
              "  set autoscale xy\n"
              "  set format xy '%%g'\n", stem);
 }

@@ -15,6 +15,9 @@
 #define MAX_WORKERS 4          /* gnuplot processes at once */
 #define MIN_PER_WORKER 4       /* fewer figures are not worth a process */
 
+
+/* Hidden name gnuplot renders an image to before it is published. */
+#define PART_PREFIX ".ff-part-"
 /* Appends printf-style text to a fixed buffer, silently truncating. */
 static void append(char *buf, size_t n, const char *fmt, ...)
   __attribute__((format(printf, 3, 4)));
@@ -109,8 +112,9 @@ static int worker_input(const struct ff_plot_set *s, size_t a, size_t b)
 
   if (ff_plot_buf_open(&buf, &d) != FF_OK)
     return -1;
-  fprintf(buf.f, "formats = '%s'\n",
-          ff_plot_formats_words(s->formats, words, sizeof words));
+  fprintf(buf.f, "formats = '%s'\noutprefix = '%s'\n",
+          ff_plot_formats_words(s->formats, words, sizeof words),
+          PART_PREFIX);
   for (k = a; k < b; k++)
     fprintf(buf.f, "print 'frostfit-figure %s'\nload '%s.gp'\n"
                    "unset multiplot\nset output\n", s->stems[k], s->stems[k]);
@@ -144,22 +148,52 @@ static int worker_input(const struct ff_plot_set *s, size_t a, size_t b)
   return fd;
 }
 
-/* Removes outputs of an earlier run so a stale file never passes as new. */
+/* Removes outputs of an earlier run so a stale file never passes as new,
+ * and any hidden part file an interrupted run left. */
 static void remove_old_outputs(const struct ff_plot_set *s)
 {
   static const char *const ext[] = { "png", "svg", "pdf" };
   size_t k, e;
-  char name[FF_PLOT_STEM_MAX + 8];
+  int part;
+  char name[FF_PLOT_STEM_MAX + 32];
 
   for (k = 0; k < s->n; k++)
-    for (e = 0; e < 3; e++) {
-      char *path;
+    for (e = 0; e < 3; e++)
+      for (part = 0; part < 2; part++) {
+        char *path;
 
+        snprintf(name, sizeof name, "%s%s.%s", part ? PART_PREFIX : "",
+                 s->stems[k], ext[e]);
+        path = ff_plot_join(s->dir, name);
+        if (path != NULL)
+          unlink(path);
+        free(path);
+      }
+}
+
+/* gnuplot wrote every image under a hidden part name: a figure it finished
+ * is renamed into place (atomic in one folder), a failed one's part files
+ * are removed, so no half-written image ever has a final name. */
+static void publish_outputs(const struct ff_plot_set *s,
+                            const unsigned char *failed)
+{
+  static const char *const ext[] = { "png", "svg", "pdf" };
+  char part[FF_PLOT_STEM_MAX + 32], name[FF_PLOT_STEM_MAX + 8];
+
+  for (size_t k = 0; k < s->n; k++)
+    for (size_t e = 0; e < 3; e++) {
+      char *from, *to;
+
+      snprintf(part, sizeof part, "%s%s.%s", PART_PREFIX, s->stems[k], ext[e]);
       snprintf(name, sizeof name, "%s.%s", s->stems[k], ext[e]);
-      path = ff_plot_join(s->dir, name);
-      if (path != NULL)
-        unlink(path);
-      free(path);
+      from = ff_plot_join(s->dir, part);
+      to = ff_plot_join(s->dir, name);
+      if (from != NULL && to != NULL) {
+        if (failed[k] || rename(from, to) != 0)
+          unlink(from);
+      }
+      free(from);
+      free(to);
     }
 }
 
@@ -360,6 +394,7 @@ int ff_plot_render(struct ff_plot_set *s, struct ff_plot_report *r,
                      cannot_run);
   } else if (st == FF_OK) {
     r->rendered = 1;
+    publish_outputs(s, failed);
     check_outputs(s, failed, r);
     for (k = 0; k < s->n; k++)
       r->n_failed += failed[k];

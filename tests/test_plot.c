@@ -443,7 +443,8 @@ Test(plot, event_script_is_escaped_and_names_its_data)
   cr_assert_not_null(drv);
   cr_expect(exists(dir, "_touch_tmp_pwned__2.gp"));
   cr_expect(strstr(gp, "'_touch_tmp_pwned_.dat' index 0") != NULL);
-  cr_expect(strstr(gp, "set output '_touch_tmp_pwned_.'.fmt") != NULL);
+  cr_expect(strstr(gp, "set output outprefix.'_touch_tmp_pwned_.'.fmt")
+            != NULL);
   cr_expect(strstr(gp, "title_text = 'run ''a(at)b'' system(''id'') `id`'\n")
             != NULL);
   cr_expect(strstr(gp, "formats = 'svg pdf'") != NULL);

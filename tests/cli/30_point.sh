@@ -118,3 +118,12 @@ if command -v script >/dev/null 2>&1; then
   script -qc "'$FF' point '$TMP/prog.csv' --json --quiet >/dev/null" /dev/null >"$TMP/tty" 2>&1
   if grep -q 'analysing' "$TMP/tty"; then bad "--quiet still drew a bar"; else ok; fi
 fi
+
+# Images are rendered to hidden part names and renamed when complete.
+if command -v gnuplot >/dev/null 2>&1; then
+  CASE="point --figures leaves no part files"
+  run "$FF" point "$TMP/prog.csv" --figures "$TMP/pfig2" --format png,svg
+  expect_rc 0
+  if ls -a "$TMP/pfig2" | grep -q 'ff-part'; then bad "part files left"; else ok; fi
+  if ls "$TMP/pfig2"/*.png >/dev/null 2>&1 && ls "$TMP/pfig2"/*.svg >/dev/null 2>&1; then ok; else bad "no images"; fi
+fi
