@@ -74,33 +74,65 @@ static void report(struct band *b)
   }
 }
 
+/* Simulates sp and detects its events, as the CLI does (dropouts left
+ * out); with_resolution hands the simulated reading step to the detector. */
+static void simulate_detect(const struct ff_sim_params *sp,
+                            int with_resolution, struct ff_sim_result *r,
+                            struct ff_event_list *l)
+{
+  struct ff_diag d = FF_DIAG_INIT;
+  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
+  double *t, *y;
+  size_t m = 0;
+
+  if (ff_simulate_run(sp, r, &d) != FF_OK) {
+    fprintf(stderr, "accuracy: simulate: %s\n", d.msg);
+    exit(3);
+  }
+  t = malloc(r->n * sizeof *t);
+  y = malloc(r->n * sizeof *y);
+  if (t == NULL || y == NULL)
+    exit(4);
+  for (size_t i = 0; i < r->n; i++)
+    if (isfinite(r->temp_c[i])) {
+      t[m] = r->t_s[i];
+      y[m++] = r->temp_c[i];
+    }
+  p.solvent = &sp->solvent;
+  if (with_resolution)
+    p.resolution_k = sp->resolution_k;
+  ff_detect_run(t, y, m, &p, l, &d);
+  free(t);
+  free(y);
+}
+
+/* One event against the truth, into band b. */
+static void score(struct band *b, const struct ff_event *e, double truth)
+{
+  if (e->trusted && isfinite(e->freezing_point_c)) {
+    add(b, FF_METHOD_AUTO, fabs(e->freezing_point_c - truth));
+    if (fabs(e->freezing_point_c - truth) <= 2.0 * e->u_freezing_point_k)
+      b->within_2u++;
+  } else {
+    b->untrusted++;
+    b->fail[FF_METHOD_AUTO]++;
+  }
+  for (int q = 1; q < FF_METHOD_COUNT; q++) {
+    if (e->est[q].ok)
+      add(b, q, fabs(e->est[q].value_c - truth));
+    else
+      b->fail[q]++;
+  }
+}
+
 /* One curve into the bands it belongs to. */
 static void run_curve(const struct ff_sim_params *sp, struct band **bands,
                       size_t nb)
 {
   struct ff_sim_result r = FF_SIM_RESULT_INIT;
-  struct ff_diag d = FF_DIAG_INIT;
-  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
   struct ff_event_list l = FF_EVENT_LIST_INIT;
-  double *t, *y;
-  size_t m = 0;
 
-  if (ff_simulate_run(sp, &r, &d) != FF_OK) {
-    fprintf(stderr, "accuracy: simulate: %s\n", d.msg);
-    exit(3);
-  }
-  t = malloc(r.n * sizeof *t);
-  y = malloc(r.n * sizeof *y);
-  if (t == NULL || y == NULL)
-    exit(4);
-  for (size_t i = 0; i < r.n; i++)
-    if (isfinite(r.temp_c[i])) {
-      t[m] = r.t_s[i];
-      y[m++] = r.temp_c[i];
-    }
-  p.solvent = &sp->solvent;
-  p.resolution_k = sp->resolution_k;
-  ff_detect_run(t, y, m, &p, &l, &d);
+  simulate_detect(sp, 1, &r, &l);
   for (size_t k = 0; k < nb; k++) {
     struct band *b = bands[k];
     b->n_curves++;
@@ -121,27 +153,10 @@ static void run_curve(const struct ff_sim_params *sp, struct band **bands,
              e->trusted ? "trusted" : "untrusted",
              1e3 * (e->freezing_point_c - r.true_fp_c),
              1e3 * (e->est[FF_METHOD_MODEL].value_c - r.true_fp_c), e->flags);
-    if (e->trusted && isfinite(e->freezing_point_c)) {
-      add(b, FF_METHOD_AUTO, fabs(e->freezing_point_c - r.true_fp_c));
-      if (fabs(e->freezing_point_c - r.true_fp_c)
-          <= 2.0 * e->u_freezing_point_k)
-        b->within_2u++;
-    }
-    else {
-      b->untrusted++;
-      b->fail[FF_METHOD_AUTO]++;
-    }
-    for (int q = 1; q < FF_METHOD_COUNT; q++) {
-      if (e->est[q].ok)
-        add(b, q, fabs(e->est[q].value_c - r.true_fp_c));
-      else
-        b->fail[q]++;
-    }
+    score(b, e, r.true_fp_c);
   }
   ff_event_list_release(&l);
   ff_sim_result_release(&r);
-  free(t);
-  free(y);
 }
 
 /* Several freeze-thaw cycles per file: every event against the truth, and
@@ -150,52 +165,17 @@ static void run_cycles(const struct ff_sim_params *sp, struct band *b,
                        size_t *found, size_t *simulated)
 {
   struct ff_sim_result r = FF_SIM_RESULT_INIT;
-  struct ff_diag d = FF_DIAG_INIT;
-  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
   struct ff_event_list l = FF_EVENT_LIST_INIT;
-  double *t, *y;
-  size_t m = 0;
 
-  if (ff_simulate_run(sp, &r, &d) != FF_OK) {
-    fprintf(stderr, "accuracy: simulate: %s\n", d.msg);
-    exit(3);
-  }
-  t = malloc(r.n * sizeof *t);
-  y = malloc(r.n * sizeof *y);
-  if (t == NULL || y == NULL)
-    exit(4);
-  for (size_t i = 0; i < r.n; i++)
-    if (isfinite(r.temp_c[i])) {
-      t[m] = r.t_s[i];
-      y[m++] = r.temp_c[i];
-    }
-  p.solvent = &sp->solvent;
-  ff_detect_run(t, y, m, &p, &l, &d);
+  simulate_detect(sp, 0, &r, &l);
   *simulated += r.n_cycles;
   *found += l.n;
   for (size_t k = 0; k < l.n; k++) {
-    const struct ff_event *e = &l.v[k];
     b->n_curves++;
-    if (e->trusted && isfinite(e->freezing_point_c)) {
-      add(b, FF_METHOD_AUTO, fabs(e->freezing_point_c - r.true_fp_c));
-      if (fabs(e->freezing_point_c - r.true_fp_c)
-          <= 2.0 * e->u_freezing_point_k)
-        b->within_2u++;
-    } else {
-      b->untrusted++;
-      b->fail[FF_METHOD_AUTO]++;
-    }
-    for (int q = 1; q < FF_METHOD_COUNT; q++) {
-      if (e->est[q].ok)
-        add(b, q, fabs(e->est[q].value_c - r.true_fp_c));
-      else
-        b->fail[q]++;
-    }
+    score(b, &l.v[k], r.true_fp_c);
   }
   ff_event_list_release(&l);
   ff_sim_result_release(&r);
-  free(t);
-  free(y);
 }
 
 int main(void)
