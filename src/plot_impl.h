@@ -13,6 +13,8 @@ struct ff_plot_set {
   char *style;                 /* style text inlined into every script */
   char *gnuplot;               /* program name or path; owned */
   int no_render;
+  void (*progress)(void *ctx, const char *stage, size_t done, size_t total);
+  void *progress_ctx;
   char (*stems)[FF_PLOT_STEM_MAX];     /* figures written, in order */
   size_t n, cap;
 };

@@ -210,6 +210,8 @@ struct ff_plot_set *ff_plot_set_new(const char *out_dir,
   }
   s->formats = o->formats != 0 ? o->formats : FF_PLOT_PNG;
   s->no_render = o->no_render;
+  s->progress = o->progress;
+  s->progress_ctx = o->progress_ctx;
   s->dir = strdup(out_dir);
   s->gnuplot = strdup(o->gnuplot != NULL ? o->gnuplot : "gnuplot");
   if (o->plots_dir != NULL) {

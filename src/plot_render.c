@@ -203,6 +203,8 @@ struct worker {
   int infd, errfd;
   pid_t pid;
   int status;
+  off_t seen_off;              /* stderr read up to here for markers */
+  size_t markers;              /* figure markers seen so far */
 };
 
 /* Starts prog in s->dir reading w->infd, stderr into w->errfd. */
@@ -238,6 +240,87 @@ static void finish_worker(struct worker *w)
   while (w->pid > 0 && waitpid(w->pid, &w->status, 0) < 0 && errno == EINTR)
     ;
   w->pid = 0;
+}
+
+/* 1 when the worker has exited (reaped into w->status), 0 while it runs. */
+static int worker_exited(struct worker *w)
+{
+  pid_t got;
+
+  if (w->pid <= 0)
+    return 1;
+  do
+    got = waitpid(w->pid, &w->status, WNOHANG);
+  while (got < 0 && errno == EINTR);
+  if (got == 0)
+    return 0;
+  w->pid = 0;                  /* exited, or cannot be waited for */
+  return 1;
+}
+
+/* Counts the figure markers gnuplot has printed so far into the worker's
+ * stderr file; only whole lines are read, the rest waits for the next call. */
+static void count_markers(struct worker *w)
+{
+  static const char marker[] = "frostfit-figure ";
+  char buf[4096];
+  ssize_t got;
+
+  while ((got = pread(w->errfd, buf, sizeof buf, w->seen_off)) > 0) {
+    size_t line = 0, used = 0;
+
+    for (size_t i = 0; i < (size_t)got; i++) {
+      if (buf[i] != '\n')
+        continue;
+      if (i - line >= sizeof marker - 1 &&
+          memcmp(buf + line, marker, sizeof marker - 1) == 0)
+        w->markers++;
+      line = used = i + 1;
+    }
+    if (used == 0 && got == (ssize_t)sizeof buf)
+      used = sizeof buf;       /* a line longer than buf: not a marker */
+    if (used == 0)
+      return;                  /* no whole line yet */
+    w->seen_off += (off_t)used;
+  }
+}
+
+/*
+ * Waits for every worker, reporting figures done as their markers appear:
+ * a figure is done when the next one's marker is printed or its gnuplot
+ * exits. Polls every 50 ms; without a callback it just waits.
+ */
+static void wait_workers(const struct ff_plot_set *s, struct worker *w,
+                         size_t nw)
+{
+  const struct timespec nap = { 0, 50 * 1000 * 1000 };
+  size_t k, running = nw, done, last = (size_t)-1;
+
+  if (s->progress == NULL) {
+    for (k = 0; k < nw; k++)
+      finish_worker(&w[k]);
+    return;
+  }
+  while (running > 0) {
+    running = 0;
+    done = 0;
+    for (k = 0; k < nw; k++) {
+      if (worker_exited(&w[k])) {
+        done += w[k].b - w[k].a;
+        continue;
+      }
+      running++;
+      count_markers(&w[k]);
+      if (w[k].markers > 1)
+        done += w[k].markers - 1;
+    }
+    if (done != last && running > 0)
+      s->progress(s->progress_ctx, "rendering figures", done, s->n);
+    last = done;
+    if (running > 0)
+      nanosleep(&nap, NULL);
+  }
+  s->progress(s->progress_ctx, "rendering figures", s->n, s->n);
 }
 
 /* Reads a worker's stderr back and attributes each line to its figure. */
@@ -359,6 +442,8 @@ int ff_plot_render(struct ff_plot_set *s, struct ff_plot_report *r,
     w[k].b = s->n * (k + 1) / nw;
     w[k].pid = 0;
     w[k].status = 0;
+    w[k].seen_off = 0;
+    w[k].markers = 0;
     w[k].infd = worker_input(s, w[k].a, w[k].b);
     w[k].errfd = scratch_fd(s->dir);
     if (w[k].infd < 0 || w[k].errfd < 0) {
@@ -371,6 +456,8 @@ int ff_plot_render(struct ff_plot_set *s, struct ff_plot_report *r,
   t0 = now_s();
   for (k = 0; k < nw && st == FF_OK; k++)
     st = start(s, prog, &w[k], d);
+  if (st == FF_OK)
+    wait_workers(s, w, nw);
   for (k = 0; k < nw; k++)
     finish_worker(&w[k]);
   r->seconds = now_s() - t0;

@@ -57,8 +57,13 @@ struct ff_plot_opts {
                                   missing file: the built-in copy is used */
   const char *gnuplot;         /* program to run; NULL: "gnuplot" on PATH */
   int no_render;               /* 1: write scripts only, never run gnuplot */
+  /* Called from ff_plot_render() (the calling thread) as figures finish,
+   * stage "rendering figures", at most about ten times a second and once
+   * at the end; NULL: none. */
+  void (*progress)(void *ctx, const char *stage, size_t done, size_t total);
+  void *progress_ctx;
 };
-#define FF_PLOT_OPTS_DEFAULT { FF_PLOT_PNG, NULL, NULL, 0 }
+#define FF_PLOT_OPTS_DEFAULT { FF_PLOT_PNG, NULL, NULL, 0, NULL, NULL }
 
 /* A sampled curve, optionally with a band lo..hi (e.g. 95 % confidence). */
 struct ff_plot_curve {

@@ -337,7 +337,8 @@ static int print_json(const struct ff_dataset *ds, const struct chan *ch,
 
 /* Runs gnuplot over the event figures; a missing gnuplot is not an error
  * (the scripts stay, and the user is told how to render them). */
-static int render(struct ff_plot_set *ps, const char *dir)
+static int render(struct ff_plot_set *ps, const char *dir,
+                  struct ff_cli_progress *prog)
 {
   struct ff_plot_report rep;
   struct ff_diag d = FF_DIAG_INIT;
@@ -345,6 +346,7 @@ static int render(struct ff_plot_set *ps, const char *dir)
 
   memset(&rep, 0, sizeof rep);
   st = ff_plot_render(ps, &rep, &d);
+  ff_cli_progress_end(prog);
   if (rep.errors[0] != '\0')
     ff_cli_msg("gnuplot reported:\n%s", rep.errors);
   if (st != FF_OK)
@@ -539,6 +541,8 @@ int ff_cmd_point(int argc, char **argv)
         m = ff_dataset_channel_xy(ds, ch[c].index, t, y);
       if (ps == NULL) {
         struct ff_diag pd = FF_DIAG_INIT;
+        po.progress = ff_cli_progress_items;
+        po.progress_ctx = &prog;
         po.plots_dir = ff_plot_dir_beside(ff_cli_datadir(), plots,
                                           sizeof plots);
         ps = ff_plot_set_new(fig_dir, &po, &pd);
@@ -567,7 +571,7 @@ int ff_cmd_point(int argc, char **argv)
   else
     print_table(ds, ch, nch, all, sv ? sv->name : "water (built-in)");
   if (st == FF_OK && ps != NULL)
-    st = render(ps, fig_dir);
+    st = render(ps, fig_dir, &prog);
 out:
   ff_plot_set_free(ps);
   for (size_t c = 0; ch != NULL && c < nch; c++)
