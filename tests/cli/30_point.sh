@@ -117,6 +117,13 @@ if command -v script >/dev/null 2>&1; then
   if grep -q 'analysing channels' "$TMP/tty"; then ok; else bad "no progress bar on a terminal"; fi
   script -qc "'$FF' point '$TMP/prog.csv' --json --quiet >/dev/null" /dev/null >"$TMP/tty" 2>&1
   if grep -q 'analysing' "$TMP/tty"; then bad "--quiet still drew a bar"; else ok; fi
+  if command -v gnuplot >/dev/null 2>&1; then
+    CASE="point --figures: a rendering bar on a terminal, none with --quiet"
+    script -qc "'$FF' point '$TMP/prog.csv' --figures '$TMP/pbar' >/dev/null" /dev/null >"$TMP/tty" 2>&1
+    if grep -q 'rendering figures .* 1 / 1' "$TMP/tty"; then ok; else bad "no rendering bar"; fi
+    script -qc "'$FF' point '$TMP/prog.csv' --figures '$TMP/pbar' --quiet >/dev/null" /dev/null >"$TMP/tty" 2>&1
+    if grep -q 'rendering figures' "$TMP/tty"; then bad "--quiet still drew a bar"; else ok; fi
+  fi
 fi
 
 # Images are rendered to hidden part names and renamed when complete.
