@@ -471,6 +471,27 @@ static size_t melted(const struct dctx *c, size_t i, double level)
   return c->n;
 }
 
+/*
+ * The last point of [w, i1) still within the noise of the warmest point w:
+ * where the cooling starts. A sample held warm before it is cooled (a
+ * logger running through a warm-up of hours) sits at that level, noise up
+ * and down, until the cooling starts, and its warmest point is anywhere in
+ * the hold; a Newton fit from there takes a flat stretch for part of an
+ * exponential (on such a file every one ran to its iteration cap and
+ * failed). When the cooling starts at the warmest point, this is that
+ * point or the next.
+ */
+static size_t cooling_start(const struct dctx *c, size_t w, size_t i1)
+{
+  double tol = fmax(4.0 * c->sigma / sqrt(2.0 * (double)half_width(c) + 1.0),
+                    2.0 * c->res), top = dd_ys(c, w) - tol;
+
+  for (size_t k = i1; k > w + 1; k--)
+    if (dd_ys(c, k - 1) >= top)
+      return k - 1;
+  return w;
+}
+
 /* Liquid fits over [lw0, lw1): Newton (kind 1) and the textbook line over
  * its last minute (kind 2). */
 static void fit_liquid(const struct dctx *c, struct ff_event *e, size_t lw0,
@@ -488,6 +509,16 @@ static void fit_liquid(const struct dctx *c, struct ff_event *e, size_t lw0,
    * (and the rounded turn from warming): skip_s of it (the caller's
    * measure of the probe lag), at most a third, at least a tenth. */
   skip = fmax(fmin(skip_s, span / 3.0), 0.1 * span);
+  /* A warm hold longer than that start: the window starts where the
+   * cooling does (lw0 is the warmest point; see cooling_start). */
+  {
+    size_t on = cooling_start(c, lw0, lw1);
+    if (c->t[on] - c->t[lw0] > skip) {
+      lw0 = on;
+      span = c->t[lw1 - 1] - c->t[lw0];
+      skip = fmax(fmin(skip_s, span / 3.0), 0.1 * span);
+    }
+  }
   a = dd_index_at(c, c->t[lw0] + skip);
   if (span < c->p->min_liquid_s || a + 3 >= lw1)
     e->flags |= FF_FLAG_LIQUID_SHORT;
