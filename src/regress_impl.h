@@ -18,7 +18,17 @@ double ff_rg_t_quantile(double conf, size_t dof);
  * the variance was estimated from the residuals, else the normal quantile. */
 double ff_rg_coverage_factor(double conf, size_t dof, int estimated);
 
-/* Number of distinct values in x[0..n) (relative gap FF_RG_DISTINCT_REL). */
+/*
+ * Number of distinct values in x[0..n). Two values a, b are the same when
+ * |a - b| <= FF_RG_DISTINCT_REL * max(|a|, |b|) (so 0 is only the same as
+ * 0); that is not transitive, so the count is defined in the order given:
+ * x[i] counts when it is the same as no earlier x[j]. A chain of values
+ * each within the tolerance of the next can thus count more than once (a,
+ * a + 1.8e-9 a, then a + 0.9e-9 a counts 2), unlike the gaps of the sorted
+ * values. O(n log n) for finite values (the pair-by-pair definition below
+ * 32 values or with a non-finite one); the same count as the definition
+ * for any input.
+ */
 size_t ff_rg_distinct(const double *x, size_t n);
 
 /*

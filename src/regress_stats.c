@@ -27,19 +27,98 @@ double ff_rg_coverage_factor(double conf, size_t dof, int estimated)
                    : gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * conf);
 }
 
-size_t ff_rg_distinct(const double *x, size_t n)
+/* Two values are the same molality when |a - b| <= FF_RG_DISTINCT_REL *
+ * max(|a|, |b|) (regress_impl.h). */
+static int same_value(double a, double b)
+{
+  return fabs(a - b) <= FF_RG_DISTINCT_REL * fmax(fabs(a), fabs(b));
+}
+
+/* The definition itself, pair by pair: O(n^2). Used for non-finite input
+ * (where the rule is not monotone in the distance) and when the sort
+ * below cannot get memory. */
+static size_t distinct_pairwise(const double *x, size_t n)
 {
   size_t k = 0;
 
   for (size_t i = 0; i < n; i++) {
     int seen = 0;
-    for (size_t j = 0; j < i && !seen; j++) {
-      double s = fmax(fabs(x[i]), fabs(x[j]));
-      if (fabs(x[i] - x[j]) <= FF_RG_DISTINCT_REL * s)
-        seen = 1;
-    }
+    for (size_t j = 0; j < i && !seen; j++)
+      seen = same_value(x[i], x[j]);
     k += !seen;
   }
+  return k;
+}
+
+/* A value and where it stood, sorted by value, ties by position (no
+ * shared state, so fits may run on several threads). */
+struct keyed {
+  double v;
+  size_t i;
+};
+
+static int cmp_keyed(const void *pa, const void *pb)
+{
+  const struct keyed *a = pa, *b = pb;
+
+  if (a->v < b->v)
+    return -1;
+  if (a->v > b->v)
+    return 1;
+  return (a->i > b->i) - (a->i < b->i);
+}
+
+/*
+ * The same count in O(n log n). The rule "same" is not transitive (a chain
+ * of values each within the tolerance of the next), so the order of x
+ * matters and is kept: x[i] counts when no earlier x[j] is the same. For
+ * fixed a, moving b away from a by d adds d to |a - b| but at most
+ * FF_RG_DISTINCT_REL d to the bound, so if any earlier value on one side of
+ * x[i] is the same, the nearest earlier one on that side is too. The
+ * values are sorted once into a linked list; walking i from the last down,
+ * x[i]'s neighbours in the list are then exactly its nearest earlier
+ * values below and above, and it is unlinked after the check.
+ */
+size_t ff_rg_distinct(const double *x, size_t n)
+{
+  struct keyed *ord;
+  size_t *pos, *prv, *nxt, k = 0;
+  const size_t none = (size_t)-1;
+
+  if (n < 32)
+    return distinct_pairwise(x, n);
+  for (size_t i = 0; i < n; i++)
+    if (!isfinite(x[i]))
+      return distinct_pairwise(x, n);
+  ord = malloc(n * sizeof *ord);
+  pos = malloc(3 * n * sizeof *pos);
+  if (ord == NULL || pos == NULL) {
+    free(ord);
+    free(pos);
+    return distinct_pairwise(x, n);
+  }
+  prv = pos + n;
+  nxt = prv + n;
+  for (size_t i = 0; i < n; i++)
+    ord[i] = (struct keyed){ x[i], i };
+  qsort(ord, n, sizeof *ord, cmp_keyed);
+  for (size_t p = 0; p < n; p++) {
+    pos[ord[p].i] = p;
+    prv[p] = p > 0 ? p - 1 : none;
+    nxt[p] = p + 1 < n ? p + 1 : none;
+  }
+  for (size_t i = n; i-- > 0;) {
+    size_t p = pos[i], a = prv[p], b = nxt[p];
+    int seen = (a != none && same_value(x[i], ord[a].v))
+               || (b != none && same_value(x[i], ord[b].v));
+    k += !seen;
+    if (a != none)
+      nxt[a] = b;
+    if (b != none)
+      prv[b] = a;
+  }
+  free(pos);
+  free(ord);
   return k;
 }
 

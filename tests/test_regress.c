@@ -844,3 +844,138 @@ Test(regress, molar_mass_band_matches_interval, .init = setup)
   cr_expect(isfinite(L->cov01));
   cr_expect_lt(L->cov01, 0.0, "intercept and slope anticorrelate for x > 0");
 }
+
+/* ---- distinct molalities ----------------------------------------------
+ * ff_rg_distinct counts in O(n log n); these tests hold it to the
+ * definition it replaced, pair by pair in the order given (regress_impl.h;
+ * the relation is our own rule, common practice, no source). */
+
+static size_t distinct_by_definition(const double *x, size_t n)
+{
+  size_t k = 0;
+
+  for (size_t i = 0; i < n; i++) {
+    int seen = 0;
+    for (size_t j = 0; j < i && !seen; j++) {
+      double s = fmax(fabs(x[i]), fabs(x[j]));
+      if (fabs(x[i] - x[j]) <= FF_RG_DISTINCT_REL * s)
+        seen = 1;
+    }
+    k += !seen;
+  }
+  return k;
+}
+
+/* Fisher-Yates with the test's generator, so orders are reproducible. */
+static void shuffle(double *x, size_t n, gsl_rng *r)
+{
+  for (size_t i = n; i > 1; i--) {
+    size_t j = gsl_rng_uniform_int(r, i);
+    double t = x[i - 1];
+    x[i - 1] = x[j];
+    x[j] = t;
+  }
+}
+
+/* One batch of random cases: sizes on both sides of the pairwise cutoff
+ * (32), every case checked against the definition. near_ties: values
+ * drawn from a few molalities, each copy moved by 0 to 3 tolerances, so
+ * chains longer than the tolerance are common; otherwise plain random
+ * molalities (0.001 to 1 mol/kg, as in a run sheet) with some exact
+ * repeats. Returns how many cases had a count below n (a tie was seen). */
+static size_t check_random_cases(int near_ties, unsigned long seed)
+{
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+  static const size_t sizes[] = { 1, 2, 3, 5, 31, 32, 33, 100, 257, 1000 };
+  double *x = malloc(2000 * sizeof *x);
+  size_t with_ties = 0;
+
+  cr_assert_not_null(r);
+  cr_assert_not_null(x);
+  gsl_rng_set(r, seed);
+  for (int rep = 0; rep < 40; rep++)
+    for (size_t s = 0; s < sizeof sizes / sizeof sizes[0]; s++) {
+      size_t n = sizes[s];
+      size_t levels = 1 + gsl_rng_uniform_int(r, 12);
+      double base[12];
+      for (size_t l = 0; l < levels; l++)
+        base[l] = 0.001 + gsl_rng_uniform(r);
+      for (size_t i = 0; i < n; i++) {
+        if (near_ties) {
+          double b = base[gsl_rng_uniform_int(r, levels)];
+          double steps = (double)gsl_rng_uniform_int(r, 7) / 2.0;
+          x[i] = b * (1.0 + steps * FF_RG_DISTINCT_REL);
+          if (gsl_rng_uniform(r) < 0.1)
+            x[i] = -x[i];
+        } else {
+          x[i] = i > 0 && gsl_rng_uniform(r) < 0.05
+                   ? x[gsl_rng_uniform_int(r, i)]
+                   : 0.001 + gsl_rng_uniform(r);
+        }
+      }
+      if (rep % 5 == 0 && n > 1)
+        x[gsl_rng_uniform_int(r, n)] = 0.0;
+      shuffle(x, n, r);
+      size_t want = distinct_by_definition(x, n);
+      size_t got = ff_rg_distinct(x, n);
+      cr_assert_eq(got, want, "%s, n %zu, rep %d: %zu distinct, the "
+                   "definition gives %zu", near_ties ? "near ties" : "plain",
+                   n, rep, got, want);
+      with_ties += want < n;
+    }
+  free(x);
+  gsl_rng_free(r);
+  return with_ties;
+}
+
+Test(regress, distinct_matches_definition_on_random_molalities,
+     .init = setup)
+{
+  size_t ties = check_random_cases(0, 11UL);
+  cr_expect_gt(ties, 0, "the repeats must exercise the tie path");
+}
+
+Test(regress, distinct_matches_definition_with_near_ties, .init = setup)
+{
+  size_t ties = check_random_cases(1, 12UL);
+  cr_expect_gt(ties, 200, "near ties must be frequent (%zu cases)", ties);
+}
+
+/* A chain a, a(1 + 1.8 tol), a(1 + 0.9 tol) repeated past the cutoff: the
+ * order decides (2 per triple), where gaps of the sorted values would
+ * give 1. Then the same values in rising order (1 per triple). */
+Test(regress, distinct_keeps_the_order_of_a_chain, .init = setup)
+{
+  double x[120];
+  const double t = FF_RG_DISTINCT_REL;
+
+  for (size_t k = 0; k < 40; k++) {
+    double a = 0.01 * (double)(k + 1);
+    x[3 * k] = a;
+    x[3 * k + 1] = a * (1.0 + 1.8 * t);
+    x[3 * k + 2] = a * (1.0 + 0.9 * t);
+  }
+  cr_expect_eq(distinct_by_definition(x, 120), 80);
+  cr_expect_eq(ff_rg_distinct(x, 120), 80);
+  for (size_t k = 0; k < 40; k++) {
+    double mid = x[3 * k + 2];
+    x[3 * k + 2] = x[3 * k + 1];
+    x[3 * k + 1] = mid;
+  }
+  cr_expect_eq(distinct_by_definition(x, 120), 40);
+  cr_expect_eq(ff_rg_distinct(x, 120), 40);
+}
+
+/* Non-finite values take the pair-by-pair path: the same count. */
+Test(regress, distinct_with_non_finite_values, .init = setup)
+{
+  double x[64];
+
+  for (size_t i = 0; i < 64; i++)
+    x[i] = 0.01 * (double)(i % 20 + 1);
+  x[5] = NAN;
+  x[17] = NAN;
+  x[30] = INFINITY;
+  x[41] = -INFINITY;
+  cr_expect_eq(ff_rg_distinct(x, 64), distinct_by_definition(x, 64));
+}
