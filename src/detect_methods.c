@@ -538,26 +538,43 @@ void dd_break(const struct dctx *c, struct ff_event *e, size_t l0, size_t i1)
 
 /* ---- energy-balance model -------------------------------------------- */
 
+/* The integration stops once x passes this: the fit uses x up to
+ * MODEL_X_MAX only, and to come back below it the sample would have to melt
+ * a tenth of its mass again, a thaw, where the branch has already ended
+ * (branch_end). A sample left on the logger for hours of solid cooling
+ * would otherwise be integrated reading by reading, three times over. */
+#define MODEL_X_STOP (MODEL_X_MAX + 0.1)
+
+/* The smoothed readings of [s0, i1) the model reads, fetched once on first
+ * use and shared by its three passes. */
+struct model_ys {
+  double *v;
+  size_t s0, n, got;
+};
+
+static double model_ys_at(const struct dctx *c, struct model_ys *m, size_t j)
+{
+  while (m->got <= j) {
+    m->v[m->got] = dd_ys(c, m->s0 + m->got);
+    m->got++;
+  }
+  return m->v[j];
+}
+
 /* One pass of the model with the liquid fit l: value, its fit u, delta,
- * u(delta), and x at the peak. Returns 0, or -1 with why in es. */
+ * u(delta), and x at the peak. Returns 0, or -1 with why in es. x: room
+ * for i1 - s0 values. */
 static int model_pass(const struct dctx *c, const struct ff_event *e,
                       const struct ff_liquid_fit *l, size_t s0, size_t i0,
-                      size_t i1, double out[5], struct ff_estimate *es)
+                      size_t i1, struct model_ys *ys, double *x,
+                      double out[5], struct ff_estimate *es)
 {
   struct ff_event tmp;
-  double *x, tau = l->tau_s, chisq;
-  size_t n = i1 - s0, m = 0, pk;
-  gsl_matrix *X = NULL, *cov = NULL;
-  gsl_vector *w = NULL, *yv = NULL, *cf = NULL;
-  gsl_multifit_linear_workspace *ws = NULL;
+  double tau = l->tau_s, c0, c1, c00, c01, c11, sumsq, *fx, *fy;
+  size_t n = i1 - s0, m = 0, pk, nx = n;
   int ret = -1;
 
   tmp.liquid = *l;             /* ff_event_eval_liquid reads only this */
-  x = malloc(n * sizeof *x);
-  if (x == NULL) {
-    est_fail(es, "out of memory");
-    return -1;
-  }
   x[0] = 0.0;
   /* The liquid curve at t[b] is the next step's value at t[a]. */
   double lnext = n > 1 ? ff_event_eval_liquid(&tmp, c->t[s0]) : 0.0;
@@ -567,60 +584,56 @@ static int model_pass(const struct dctx *c, const struct ff_event *e,
     double cap = (1.0 - xc) * c->cpl + xc * c->cps;
     double la = lnext, lb = ff_event_eval_liquid(&tmp, c->t[b]);
     lnext = lb;
-    double da = dd_ys(c, a) - la, db = dd_ys(c, b) - lb;
+    double da = model_ys_at(c, ys, j - 1) - la,
+           db = model_ys_at(c, ys, j) - lb;
     x[j] = x[j - 1] + (cap * (db - da)
                        + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) / tau
                        + (cap - c->cpl) * (lb - la)) / c->lat;
+    if (x[j] > MODEL_X_STOP) {
+      nx = j + 1;              /* x[j] is the last one computed */
+      break;
+    }
   }
   pk = dd_index_at(c, e->peak_time_s);
-  out[4] = (pk >= s0 && pk < i1) ? x[pk - s0] : NAN;
-  for (size_t i = i0; i < i1; i++)
+  out[4] = (pk >= s0 && pk < s0 + nx) ? x[pk - s0] : NAN;
+  for (size_t i = i0; i < i1 && i < s0 + nx; i++)
     if (x[i - s0] > 0.0 && x[i - s0] <= MODEL_X_MAX)
       m++;
   if (m < 2 * MIN_FIT_POINTS) {
-    free(x);
     est_fail(es, "too few settled points on the freezing branch");
     return -1;
   }
-  X = gsl_matrix_alloc(m, 2);
-  cov = gsl_matrix_alloc(2, 2);
-  w = gsl_vector_alloc(m);
-  yv = gsl_vector_alloc(m);
-  cf = gsl_vector_alloc(2);
-  ws = gsl_multifit_linear_alloc(m, 2);
-  if (X && cov && w && yv && cf && ws) {
+  fx = malloc(2 * m * sizeof *fx);
+  if (fx == NULL) {
+    est_fail(es, "out of memory");
+    return -1;
+  }
+  fy = fx + m;
+  {
     size_t k = 0;
-    for (size_t i = i0; i < i1; i++) {
+    for (size_t i = i0; i < i1 && i < s0 + nx; i++) {
       double xi = x[i - s0];
       if (!(xi > 0.0 && xi <= MODEL_X_MAX))
         continue;
-      gsl_matrix_set(X, k, 0, 1.0);
-      gsl_matrix_set(X, k, 1, 1.0 / (1.0 - xi) - 1.0);  /* 0 at x = 0 */
-      gsl_vector_set(w, k, 1.0);
-      gsl_vector_set(yv, k, c->y[i]);
+      fx[k] = 1.0 / (1.0 - xi) - 1.0;  /* 0 at x = 0 */
+      fy[k] = c->y[i];
       k++;
     }
-    if (gsl_multifit_wlinear(X, w, yv, cf, cov, &chisq, ws) == GSL_SUCCESS) {
-      double s2 = chisq / (double)(m - 2);
-      out[0] = gsl_vector_get(cf, 0);
-      out[1] = sqrt(gsl_matrix_get(cov, 0, 0) * s2);
-      out[2] = -gsl_vector_get(cf, 1);
-      out[3] = sqrt(gsl_matrix_get(cov, 1, 1) * s2);
-      ret = 0;
-    } else {
-      est_fail(es, "the branch fit failed");
-    }
-  } else {
-    est_fail(es, "out of memory");
   }
-  gsl_matrix_free(X);
-  gsl_matrix_free(cov);
-  gsl_vector_free(w);
-  gsl_vector_free(yv);
-  gsl_vector_free(cf);
-  if (ws)
-    gsl_multifit_linear_free(ws);
-  free(x);
+  /* Straight line in 1/(1 - x) - 1 by least squares, covariance scaled by
+   * the residual variance: the same estimate as a two-column design
+   * matrix, in two passes over the points. */
+  if (gsl_fit_linear(fx, 1, fy, 1, m, &c0, &c1, &c00, &c01, &c11, &sumsq)
+        == GSL_SUCCESS && isfinite(c0) && isfinite(c1)) {
+    out[0] = c0;
+    out[1] = sqrt(c00);
+    out[2] = -c1;
+    out[3] = sqrt(c11);
+    ret = 0;
+  } else {
+    est_fail(es, "the branch fit failed");
+  }
+  free(fx);
   return ret;
 }
 
@@ -646,7 +659,8 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
 {
   struct ff_estimate *es = &e->est[FF_METHOD_MODEL];
   const struct ff_liquid_fit *l = &e->liquid;
-  double r0[5], r1[5], u2;
+  double r0[5], r1[5], u2, *x;
+  struct model_ys ys;
 
   if (l->kind != 1) {
     est_fail(es, "the liquid branch does not give a bath temperature and "
@@ -657,8 +671,19 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
     est_fail(es, "freezing branch too short");
     return;
   }
-  if (model_pass(c, e, l, s0, i0, i1, r0, es) != 0)
+  ys.s0 = s0;
+  ys.n = i1 - s0;
+  ys.got = 0;
+  ys.v = malloc(2 * ys.n * sizeof *ys.v);
+  if (ys.v == NULL) {
+    est_fail(es, "out of memory");
     return;
+  }
+  x = ys.v + ys.n;
+  if (model_pass(c, e, l, s0, i0, i1, &ys, x, r0, es) != 0) {
+    free(ys.v);
+    return;
+  }
   e->model_delta_k = r0[2];
   e->model_u_delta_k = r0[3];
   e->model_tf0_c = r0[0] + r0[2];
@@ -675,8 +700,9 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
       lp.bath_c += du;
     else
       lp.tau_s += du;
-    if (model_pass(c, e, &lp, s0, i0, i1, r1, &dummy) == 0)
+    if (model_pass(c, e, &lp, s0, i0, i1, &ys, x, r1, &dummy) == 0)
       u2 += (r1[0] - r0[0]) * (r1[0] - r0[0]);
   }
+  free(ys.v);
   est_set(es, r0[0], sqrt(u2));
 }
