@@ -15,6 +15,7 @@
 #include <gsl/gsl_sort.h>
 #include <gsl/gsl_statistics_double.h>
 
+#include "frostfit/parallel.h"
 #include "regress_impl.h"
 
 /* |ln K| beyond this means the constant is not determined by the data. */
@@ -707,6 +708,41 @@ int ff_regress_solute(const struct ff_regress_input *in,
 
 /* ---- Monte Carlo ----------------------------------------------------- */
 
+/* Refits per block of draws: bounds the draws kept at once (block x 2n
+ * values) while giving the pool enough items to share. */
+#define MC_BLOCK 64
+
+/* One block of draws: draws[k] holds m then i for draw k (n each); a
+ * worker refits draw k and writes only ok[k] and lim[k]. */
+struct mc_refits {
+  const struct ff_regress_input *in;
+  enum ff_regress_model model;
+  const struct ff_regress_opts *o;
+  const double *draws;
+  unsigned char *ok;     /* in: the draw is valid (every m > 0); out: and
+                            its refit succeeded */
+  double *lim;           /* i_limit of each refit */
+};
+
+static void mc_refit(void *ctx, size_t k)
+{
+  const struct mc_refits *j = ctx;
+  struct ff_regress_input pin = *j->in;
+  struct ff_fit f = FF_FIT_INIT;
+  struct ff_diag dq = FF_DIAG_INIT;
+
+  if (!j->ok[k])
+    return;
+  pin.m_mol_kg = j->draws + k * 2 * pin.n;
+  pin.i_obs = pin.m_mol_kg + pin.n;
+  pin.u_m_mol_kg = NULL;
+  if (ff_regress_fit_model(&pin, j->model, j->o, &f, &dq) == FF_OK)
+    j->lim[k] = f.i_limit;
+  else
+    j->ok[k] = 0;
+  ff_fit_release(&f);
+}
+
 int ff_regress_monte_carlo(const struct ff_regress_input *in,
                            enum ff_regress_model model,
                            const struct ff_regress_opts *o, size_t n_draws,
@@ -714,7 +750,7 @@ int ff_regress_monte_carlo(const struct ff_regress_input *in,
                            struct ff_diag *d)
 {
   struct ff_regress_opts oa;
-  struct ff_fit base = FF_FIT_INIT, f = FF_FIT_INIT;
+  struct ff_fit base = FF_FIT_INIT;
   int st;
 
   memset(out, 0, sizeof *out);
@@ -747,42 +783,54 @@ int ff_regress_monte_carlo(const struct ff_regress_input *in,
   ff_fit_release(&base);
 
   size_t n = in->n;
-  double *buf = malloc((2 * n + n_draws) * sizeof *buf);
+  size_t block = n_draws < MC_BLOCK ? n_draws : MC_BLOCK;
+  double *lim = malloc(n_draws * sizeof *lim);
+  double *draws = malloc(block * 2 * n * sizeof *draws);
+  unsigned char *ok = malloc(block);
   gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
-  if (!buf || !r) {
-    free(buf);
+  if (!lim || !draws || !ok || !r) {
+    free(lim);
+    free(draws);
+    free(ok);
     gsl_rng_free(r);
     return ff_diag_set(d, FF_EIO, NULL, "Monte Carlo: out of memory");
   }
   gsl_rng_set(r, seed);
-  double *mi = buf, *ii = buf + n, *lim = buf + 2 * n;
-  struct ff_regress_input pin = *in;
-  pin.m_mol_kg = mi;
-  pin.i_obs = ii;
-  pin.u_m_mol_kg = NULL;
+  struct mc_refits job = { in, model, &oa, draws, ok, lim };
 
-  for (size_t k = 0; k < n_draws; k++) {
-    int valid = 1;
-    for (size_t i = 0; i < n; i++) {
-      ii[i] = in->i_obs[i] + gsl_ran_gaussian(r, in->u_i[i]);
-      mi[i] = in->m_mol_kg[i] + (in->u_m_mol_kg
-                                   ? gsl_ran_gaussian(r, in->u_m_mol_kg[i])
-                                   : 0.0);
-      valid = valid && mi[i] > 0.0;
+  /* The draws of a block come from the one generator in the order of a
+   * draw-by-draw loop (i then m, point by point, draw by draw); their
+   * refits then run on every core, and the limits join lim in draw order,
+   * so the summary does not depend on the threads. */
+  for (size_t k0 = 0; k0 < n_draws; k0 += block) {
+    size_t nb = n_draws - k0 < block ? n_draws - k0 : block;
+    for (size_t k = 0; k < nb; k++) {
+      double *mi = draws + k * 2 * n, *ii = mi + n;
+      ok[k] = 1;
+      for (size_t i = 0; i < n; i++) {
+        ii[i] = in->i_obs[i] + gsl_ran_gaussian(r, in->u_i[i]);
+        mi[i] = in->m_mol_kg[i] + (in->u_m_mol_kg
+                                     ? gsl_ran_gaussian(r, in->u_m_mol_kg[i])
+                                     : 0.0);
+        ok[k] = ok[k] && mi[i] > 0.0;
+      }
     }
-    struct ff_diag dq = FF_DIAG_INIT;
-    if (valid && ff_regress_fit_model(&pin, model, &oa, &f, &dq) == FF_OK)
-      lim[out->n_ok++] = f.i_limit;
-    ff_fit_release(&f);
+    job.lim = lim + k0;
+    ff_parallel_for(nb, mc_refit, &job);
+    for (size_t k = 0; k < nb; k++)
+      if (ok[k])
+        lim[out->n_ok++] = lim[k0 + k];
   }
   gsl_rng_free(r);
+  free(draws);
+  free(ok);
   out->n_draws = n_draws;
   if (out->n_ok < 2 || (double)out->n_ok < 0.9 * (double)n_draws) {
-    size_t ok = out->n_ok;
-    free(buf);
+    size_t n_ok = out->n_ok;
+    free(lim);
     memset(out, 0, sizeof *out);
     return ff_diag_set(d, FF_EUNTRUSTED, NULL, "Monte Carlo: only %zu of "
-                       "%zu refits succeeded", ok, n_draws);
+                       "%zu refits succeeded", n_ok, n_draws);
   }
   gsl_sort(lim, 1, out->n_ok);
   double conf = oa.confidence;
@@ -794,6 +842,6 @@ int ff_regress_monte_carlo(const struct ff_regress_input *in,
   out->q_hi = gsl_stats_quantile_from_sorted_data(lim, 1, out->n_ok,
                                                   0.5 + 0.5 * conf);
   out->ratio = out->u_propagated > 0.0 ? out->sd / out->u_propagated : 0.0;
-  free(buf);
+  free(lim);
   return FF_OK;
 }

@@ -11,6 +11,8 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
+#include <gsl/gsl_sort.h>
+#include <gsl/gsl_statistics_double.h>
 
 #include "frostfit/regress.h"
 #include "../src/regress_impl.h"
@@ -978,4 +980,73 @@ Test(regress, distinct_with_non_finite_values, .init = setup)
   x[30] = INFINITY;
   x[41] = -INFINITY;
   cr_expect_eq(ff_rg_distinct(x, 64), distinct_by_definition(x, 64));
+}
+
+/* The refits run on the worker pool in blocks of draws; the summary must
+ * be exactly that of the plain loop, draw by draw with one generator (i
+ * then m for each point), which is written out here. 150 draws cross two
+ * block boundaries; a large u(m) at the smallest molality makes some draws
+ * invalid (m <= 0), so the skipped draws are exercised too. */
+Test(regress, monte_carlo_equals_draw_by_draw_loop, .init = setup)
+{
+  struct salt s;
+  struct ff_mc_summary mc;
+  struct ff_diag d = FF_DIAG_INIT;
+  struct ff_regress_opts o = FF_REGRESS_OPTS_DEFAULT;
+  double um[8], mi[8], ii[8], lim[150];
+  const size_t draws = 150;
+  const unsigned long seed = 424242UL;
+  size_t n_ok = 0, invalid = 0;
+
+  load_salt("NaCl", &s);
+  for (size_t k = 0; k < s.n; k++) {
+    s.u[k] = 0.004;
+    um[k] = 1e-4 * s.m[k];
+  }
+  um[0] = 0.5 * s.m[0];   /* about 2 % of the draws give m <= 0 */
+  struct ff_regress_input in = salt_input(&s, 0);
+  in.u_m_mol_kg = um;
+  cr_assert_eq(ff_regress_monte_carlo(&in, FF_REGRESS_SQRT_LINEAR, NULL,
+                                      draws, seed, &mc, &d), FF_OK, "%s",
+               d.msg);
+
+  /* The reference loop, options as the Monte Carlo sets them. */
+  o.cov = FF_COV_ABSOLUTE;
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+  cr_assert_not_null(r);
+  gsl_rng_set(r, seed);
+  struct ff_regress_input pin = in;
+  pin.m_mol_kg = mi;
+  pin.i_obs = ii;
+  pin.u_m_mol_kg = NULL;
+  for (size_t k = 0; k < draws; k++) {
+    int valid = 1;
+    for (size_t i = 0; i < in.n; i++) {
+      ii[i] = in.i_obs[i] + gsl_ran_gaussian(r, in.u_i[i]);
+      mi[i] = in.m_mol_kg[i] + gsl_ran_gaussian(r, um[i]);
+      valid = valid && mi[i] > 0.0;
+    }
+    struct ff_fit f = FF_FIT_INIT;
+    struct ff_diag dq = FF_DIAG_INIT;
+    if (valid && ff_regress_fit_model(&pin, FF_REGRESS_SQRT_LINEAR, &o, &f,
+                                      &dq) == FF_OK)
+      lim[n_ok++] = f.i_limit;
+    invalid += !valid;
+    ff_fit_release(&f);
+  }
+  gsl_rng_free(r);
+  cr_expect_gt(invalid, 0, "some draws must be invalid for this check");
+  cr_expect_eq(mc.n_draws, draws);
+  cr_expect_eq(mc.n_ok, n_ok);
+  /* Same draws, same fits, same order of summation: exactly equal. */
+  gsl_sort(lim, 1, n_ok);
+  double mean = gsl_stats_mean(lim, 1, n_ok);
+  cr_expect_float_eq(mc.mean, mean, 0.0, "mean %.17g vs %.17g", mc.mean,
+                     mean);
+  cr_expect_float_eq(mc.sd, gsl_stats_sd_m(lim, 1, n_ok, mean), 0.0);
+  cr_expect_float_eq(mc.median,
+                     gsl_stats_median_from_sorted_data(lim, 1, n_ok), 0.0);
+  cr_expect_float_eq(mc.q_hi, gsl_stats_quantile_from_sorted_data(
+                                lim, 1, n_ok, 0.975), 0.0);
+  cr_expect_gt(mc.sd, 0.0);
 }

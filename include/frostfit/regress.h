@@ -283,7 +283,10 @@ struct ff_mc_summary {
  * negative or not a number. Pass u_m_mol_kg = NULL to compare like with
  * like against u_propagated. FF_EUNTRUSTED when the
  * unperturbed fit fails, the model's limit is fixed, or fewer than 90 % of
- * the refits succeed; FF_EIO when out of memory.
+ * the refits succeed; FF_EIO when out of memory. The draws come from the
+ * one generator in a fixed order and the refits run on every core
+ * (ff_parallel_for): the summary is the same whatever the number of
+ * threads, and the same as refitting draw by draw.
  */
 int ff_regress_monte_carlo(const struct ff_regress_input *in,
                            enum ff_regress_model model,
