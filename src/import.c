@@ -437,6 +437,60 @@ static size_t read_full(FILE *f, char *buf, size_t cap)
   return n;
 }
 
+/*
+ * The fast path (import_fast.c) for plain numeric tables in regular files;
+ * FF_FAST_DECLINED leaves r->ds as it was and the file where it was.
+ */
+static int try_fast(struct reader *r, FILE *f, const char *buf, size_t len,
+                    int eof, const struct ff_sniff *sn)
+{
+  struct ff_dataset *ds = r->ds;
+  struct ff_fast_in in;
+  struct stat st;
+  enum ff_temp_unit *units;
+  int res;
+
+  if (f == stdin || r->ws || (r->tf != FF_TIME_SECONDS
+                              && r->tf != FF_TIME_MINUTES
+                              && r->tf != FF_TIME_HOURS))
+    return FF_FAST_DECLINED;
+  memset(&in, 0, sizeof in);
+  if (eof) {
+    in.fd = -1;                      /* all of it is in the sample */
+    in.size = len;
+  } else {
+    if (fstat(fileno(f), &st) != 0 || !S_ISREG(st.st_mode)
+        || st.st_size <= 0)
+      return FF_FAST_DECLINED;
+    in.fd = fileno(f);
+    in.size = (size_t)st.st_size;
+  }
+  units = malloc((ds->n_channels ? ds->n_channels : 1) * sizeof *units);
+  if (units == NULL)
+    return FF_FAST_DECLINED;
+  for (size_t k = 0; k < ds->n_channels; k++)
+    units[k] = ds->ch[k].unit_in;
+  in.buf = buf;
+  in.len = len;
+  in.data_offset = sn->data_offset;
+  in.n_columns = r->n_columns;
+  in.time_col = r->time_col;
+  in.min_fields = r->min_fields;
+  in.chan = r->chan;
+  in.units = units;
+  in.time_scale = r->time_scale;
+  in.delimiter = ds->dialect.delimiter;
+  in.decimal = r->decimal;
+  in.sentinels = r->o->sentinels;
+  in.n_sentinels = r->o->n_sentinels;
+  in.progress = r->o->progress;
+  in.progress_ctx = r->o->progress_ctx;
+  in.no_fast = r->o->no_fast_path;
+  res = ff_import_fast(&in, ds);
+  free(units);
+  return res;
+}
+
 /* After the last row: times from the first kept row, ranges, checks. */
 static int finish(struct reader *r)
 {
@@ -543,6 +597,15 @@ struct ff_dataset *ff_import_file(const char *path,
     goto fail;
   }
   csv_ready = 1;
+  if (try_fast(&r, f, buf, len, eof, &sn) == FF_OK) {
+    csv_free(&r.csv);
+    free(r.chan);
+    free(r.row_v);
+    free(buf);
+    if (f != stdin)
+      fclose(f);
+    return r.ds;
+  }
   if (feed(&r, buf + sn.data_offset, len - sn.data_offset) != 0)
     goto fail;
   {

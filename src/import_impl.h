@@ -79,4 +79,58 @@ int ff_import_sniff(const char *buf, size_t len, int eof, const char *path,
 /* Quotes bad text for a message: at most 40 bytes, control bytes as '?'. */
 const char *ff_import_quote(char *dst, size_t cap, const char *s, size_t n);
 
+/* ff_import_fast() stepped aside: read the file the general way. */
+#define FF_FAST_DECLINED 1
+
+/* What the fast path needs to know, all decided by the sniffing. */
+struct ff_fast_in {
+  int fd;                          /* a regular file for pread, or -1:
+                                      the whole file is buf[0..len) */
+  const char *buf;                 /* the sample read for sniffing */
+  size_t len;
+  size_t size;                     /* file size (len when fd is -1) */
+  size_t data_offset;              /* first data line */
+  size_t n_columns, time_col;
+  size_t min_fields;               /* fewer fields: a short row */
+  const long *chan;                /* per column: channel index or -1 */
+  const enum ff_temp_unit *units;  /* per channel: unit in the file */
+  double time_scale;               /* numeric time to seconds */
+  char delimiter, decimal;
+  const double *sentinels;
+  size_t n_sentinels;
+  void (*progress)(void *ctx, unsigned long long done,
+                   unsigned long long total);
+  void *progress_ctx;
+  int no_fast;                     /* 1: always decline */
+};
+
+/*
+ * The fast path for plain numeric tables (single-byte delimiter, no
+ * quotes, numeric time): parses the data region in parallel chunks into
+ * ds (which new_dataset() in import.c prepared: columns and channels
+ * set, no rows) and does what the general reader's end does (times from
+ * the first kept row, ranges, counters). Returns FF_OK, or
+ * FF_FAST_DECLINED with ds as it came when the file holds anything the
+ * general reader must judge (quotes, bad cells, ragged rows, lone CR line
+ * ends, NUL bytes, very long lines, no kept rows ...) or memory runs
+ * out. Either way the result equals the general reader's, bit for bit.
+ * FF_IMPORT_NO_FAST=1 in the environment makes it always decline.
+ */
+int ff_import_fast(const struct ff_fast_in *in, struct ff_dataset *ds);
+
+/*
+ * The number at p (text that ends in a byte which is not a digit, sign or
+ * `decimal`) when it is "[+|-]digits[<decimal>digits]" with at most 19
+ * digits in all, a value of at most 2^53 and at most 22 after the mark:
+ * the case where ff_import_parse_number makes one exact multiply or divide;
+ * this makes the same one (the same double as strtod). Returns the end of
+ * the number, or NULL for anything else (then ask ff_import_parse_number).
+ */
+const char *ff_import_quick_number(const char *p, char decimal, double *out);
+
+/* For tests: chunk and block sizes of the fast path in bytes (0, 0 = the
+ * defaults), and how many imports it has finished in this process. */
+void ff_import_fast_tune(size_t chunk_bytes, size_t block_bytes);
+unsigned long ff_import_fast_count(void);
+
 #endif /* FF_IMPORT_IMPL_H */

@@ -34,6 +34,10 @@ struct ff_import_opts {
   void (*progress)(void *ctx, unsigned long long done,
                    unsigned long long total);
   void *progress_ctx;
+  /* 1: never take the parallel fast path for plain numeric tables (the
+   * result is the same either way; for tests and benchmarks). The
+   * environment variable FF_IMPORT_NO_FAST=1 does the same. */
+  int no_fast_path;
 };
 #define FF_IMPORT_OPTS_DEFAULT { 0 }
 
@@ -109,7 +113,9 @@ struct ff_dataset {
 
 /*
  * Reads path ("-" = standard input) with libcsv, streaming: the file's text
- * is never held whole, only the numbers (8 bytes a value). o may be NULL
+ * is never held whole, only the numbers (8 bytes a value). Plain numeric
+ * tables in regular files are parsed in parallel chunks by a fast path
+ * with the same result. o may be NULL
  * (defaults). Missing cells, sentinel values and overflow markers become
  * NaN; rows without a time, with a repeated or backwards time, or with no
  * temperature at all are skipped and counted in stats. Temperatures are

@@ -1,0 +1,755 @@
+/* import_fast.c - the importer's fast path for the plain dialects: the data
+ * region of a regular file is cut into chunks at line starts and parsed in
+ * parallel by hand-written code; anything unusual makes it step aside so
+ * that the general (libcsv) reader in import.c produces the result and the
+ * exact diagnostic. Both give the same dataset, bit for bit. */
+#include "import_impl.h"
+#include "frostfit/parallel.h"
+
+#include <errno.h>
+#include <float.h>
+#include <math.h>
+#include <stdatomic.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/types.h>
+#include <unistd.h>
+
+/* Bytes read per step in each chunk (a line must fit in one). */
+#define FAST_BLOCK ((size_t)1 << 20)
+/* Chunk sizes: about 8 per thread, within these bounds. */
+#define FAST_MIN_CHUNK ((size_t)1 << 20)
+#define FAST_MAX_CHUNK ((size_t)16 << 20)
+#define FAST_CHUNKS_PER_THREAD 8
+
+/* As in import_number.c: the exact one-operation case needs double
+ * arithmetic done in double; elsewhere every number goes the long way. */
+#if defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
+#define FAST_NUMBERS 1
+#else
+#define FAST_NUMBERS 0
+#endif
+
+/* Test hooks: chunk and block sizes (0 = the defaults), fast imports. */
+static size_t tune_chunk, tune_block;
+static atomic_ulong fast_done;
+
+void ff_import_fast_tune(size_t chunk_bytes, size_t block_bytes)
+{
+  tune_chunk = chunk_bytes;
+  tune_block = block_bytes;
+}
+
+unsigned long ff_import_fast_count(void)
+{
+  return atomic_load(&fast_done);
+}
+
+static size_t block_size(void)
+{
+  return tune_block > 0 ? tune_block : FAST_BLOCK;
+}
+
+static const double pow10_exact[] = {
+  1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
+  1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22
+};
+
+/* One chunk of the data region and what parsing it found. */
+struct chunk {
+  size_t lo, hi;               /* nominal byte range: owns line starts here */
+  size_t start, end;           /* text of the owned lines */
+  size_t lines, base;          /* line starts owned; first slot */
+  int has_start;
+  /* results of the parse */
+  size_t rows_read, rows_no_time, comments, holes, all_missing;
+  int increasing;              /* rows with a time strictly increase */
+  int have_t;
+  double first_t, last_t;
+};
+
+struct fast {
+  const struct ff_fast_in *in;
+  size_t size;                 /* file size */
+  size_t n_chunks;
+  struct chunk *ck;
+  size_t nch;                  /* channels */
+  double *t;                   /* slots: times, NaN = no row */
+  double **v;                  /* per channel slots */
+  /* per chunk and channel: n_missing, min, max (chunk-major) */
+  size_t *c_missing;
+  double *c_lo, *c_hi;
+  atomic_int abandon;
+  /* for the time shift after compaction */
+  size_t n;
+  double t0;
+};
+
+/* Reads n bytes at off from the file (or the in-memory sample). */
+static int read_at(const struct fast *fs, char *dst, size_t n, size_t off)
+{
+  const struct ff_fast_in *in = fs->in;
+  size_t got = 0;
+
+  if (in->fd < 0) {
+    if (off > in->len || n > in->len - off)
+      return -1;
+    memcpy(dst, in->buf + off, n);
+    return 0;
+  }
+  while (got < n) {
+    ssize_t k = pread(in->fd, dst + got, n - got, (off_t)(off + got));
+    if (k < 0 && errno == EINTR)
+      continue;
+    if (k <= 0)
+      return -1;
+    got += (size_t)k;
+  }
+  return 0;
+}
+
+/* '\n' bytes in s[0..n), eight at a time. */
+static size_t count_lf(const char *s, size_t n)
+{
+  const uint64_t ones = 0x0101010101010101u, high = 0x8080808080808080u;
+  const uint64_t low7 = 0x7f7f7f7f7f7f7f7fu, lf = ones * '\n';
+  size_t i = 0, c = 0;
+
+  for (; i + 8 <= n; i += 8) {
+    uint64_t w, x, m;
+    memcpy(&w, s + i, 8);
+    x = w ^ lf;
+    m = ~(((x & low7) + low7) | x) & high;   /* 0x80 where a byte was '\n' */
+    c += (size_t)(((m >> 7) * ones) >> 56);
+  }
+  for (; i < n; i++)
+    c += s[i] == '\n';
+  return c;
+}
+
+/*
+ * Pass 1 for chunk i: counts the line starts it owns (a line starts at the
+ * data offset and after every '\n' that is not the file's last byte) and
+ * finds where its first one is.
+ */
+static void count_chunk(void *ctx, size_t i)
+{
+  struct fast *fs = ctx;
+  struct chunk *c = &fs->ck[i];
+  size_t d0 = fs->in->data_offset;
+  size_t lo = i == 0 ? d0 : c->lo - 1, hi = c->hi - 1;
+  size_t cap = block_size(), lines = 0;
+  char *buf;
+
+  if (i == 0) {
+    c->has_start = 1;
+    c->start = d0;
+    lines = 1;
+  }
+  if (hi > fs->size - 1)
+    hi = fs->size - 1;               /* a final '\n' starts no line */
+  if (lo >= hi) {
+    c->lines = lines;
+    return;
+  }
+  if (cap > hi - lo)
+    cap = hi - lo;
+  buf = malloc(cap);
+  if (buf == NULL) {
+    atomic_store(&fs->abandon, 1);
+    return;
+  }
+  for (size_t off = lo; off < hi && !atomic_load(&fs->abandon);) {
+    size_t n = hi - off < cap ? hi - off : cap;
+    if (read_at(fs, buf, n, off) != 0) {
+      atomic_store(&fs->abandon, 1);
+      break;
+    }
+    if (!c->has_start) {
+      const char *nl = memchr(buf, '\n', n);
+      if (nl != NULL) {
+        c->has_start = 1;
+        c->start = off + (size_t)(nl - buf) + 1;
+      }
+    }
+    lines += count_lf(buf, n);
+    off += n;
+  }
+  free(buf);
+  c->lines = lines;
+}
+
+static double to_celsius(double x, enum ff_temp_unit u)
+{
+  switch (u) {
+  case FF_UNIT_K: return x - 273.15;
+  case FF_UNIT_F: return (x - 32.0) * 5.0 / 9.0;
+  default: return x;
+  }
+}
+
+const char *ff_import_quick_number(const char *p, char decimal, double *out)
+{
+  const char *s = p, *d0;
+  uint64_t m = 0;
+  size_t nint, nfrac = 0;
+  int neg = 0;
+  double x;
+
+  if (!FAST_NUMBERS)
+    return NULL;
+  if (*s == '-' || *s == '+')
+    neg = *s++ == '-';
+  d0 = s;
+  while ((unsigned)((unsigned char)*s - '0') < 10)
+    m = m * 10 + (uint64_t)(*s++ - '0');
+  nint = (size_t)(s - d0);
+  if (*s == decimal) {
+    const char *f0 = ++s;
+    while ((unsigned)((unsigned char)*s - '0') < 10)
+      m = m * 10 + (uint64_t)(*s++ - '0');
+    nfrac = (size_t)(s - f0);
+  }
+  if (nint + nfrac == 0 || nint + nfrac > 19 || m > ((uint64_t)1 << 53)
+      || nfrac > 22)
+    return NULL;
+  x = (double)m;
+  x = nfrac > 0 ? x / pow10_exact[nfrac] : x * pow10_exact[0];
+  *out = neg ? -x : x;
+  return s;
+}
+
+/* The end of the field at p: the delimiter or the line end. NULL for what
+ * the general reader must judge: quotes, NUL bytes, a CR not before LF. */
+static const char *field_end(const char *p, char delim)
+{
+  for (;; p++) {
+    char c = *p;
+    if (c == delim || c == '\n')
+      return p;
+    if (c == '"' || c == '\0')
+      return NULL;
+    if (c == '\r')
+      return p[1] == '\n' ? p : NULL;
+  }
+}
+
+static int all_blank(const char *s, const char *e)
+{
+  for (; s < e; s++)
+    if (*s != ' ' && *s != '\t')
+      return 0;
+  return 1;
+}
+
+/* What one worker keeps while it parses a chunk. */
+struct worker {
+  struct fast *fs;
+  struct chunk *c;
+  size_t slot, last_slot;      /* next slot to fill; one past the chunk's */
+  double *row;                 /* per channel, the row being read */
+  size_t *missing;
+  double *lo, *hi;
+};
+
+static int cell_time(const struct ff_fast_in *in, const char *s, size_t n,
+                     double *t, int *missing)
+{
+  double v;
+
+  if (ff_import_parse_number(s, n, in->decimal, &v) == 0 && isfinite(v)) {
+    *t = v * in->time_scale;
+    return 0;
+  }
+  if (ff_import_is_missing_text(s, n)) {
+    *missing = 1;
+    return 0;
+  }
+  return -1;
+}
+
+static double temp_value(const struct ff_fast_in *in, double v,
+                         enum ff_temp_unit u)
+{
+  if ((in->n_sentinels > 0 || fabs(v) > 998.0)
+      && ff_import_is_sentinel(v, in->sentinels, in->n_sentinels))
+    return NAN;
+  return to_celsius(v, u);
+}
+
+/*
+ * One line at p (a '\n' follows somewhere): fills its slot. Returns the
+ * start of the next line, or NULL to hand the file to the general reader.
+ */
+static const char *parse_line(struct worker *w, const char *p)
+{
+  struct fast *fs = w->fs;
+  const struct ff_fast_in *in = fs->in;
+  const char delim = in->delimiter, dec = in->decimal;
+  const size_t ncol = in->n_columns, tcol = in->time_col, nch = fs->nch;
+  struct chunk *c = w->c;
+  const char *q = p;
+  size_t slot = w->slot, f = 0, present = 0;
+  double t = NAN;
+  int t_missing = 0;
+
+  if (slot >= w->last_slot)
+    return NULL;
+  if (*p == '#') {                 /* a comment line */
+    const char *e = p;
+    for (;; e++) {
+      if (*e == '\n')
+        break;
+      if (*e == '\0' || (*e == '\r' && e[1] != '\n'))
+        return NULL;
+    }
+    c->comments++;
+    c->holes++;
+    fs->t[slot] = NAN;
+    w->slot++;
+    return e + 1;
+  }
+  while ((*q == ' ' || *q == '\t') && *q != delim)
+    q++;
+  if (*q == '\n' || (*q == '\r' && q[1] == '\n')) {   /* a blank line */
+    c->holes++;
+    fs->t[slot] = NAN;
+    w->slot++;
+    return q + (*q == '\r' ? 2 : 1);
+  }
+  q = p;
+  c->rows_read++;
+  for (size_t k = 0; k < nch; k++)
+    w->row[k] = NAN;
+  for (;; f++) {
+    const char *e;
+    double v;
+    long k = f < ncol ? in->chan[f] : -1;
+    if (f < ncol && (f == tcol || k >= 0)) {
+      e = ff_import_quick_number(q, dec, &v);
+      if (e != NULL && (*e == delim || *e == '\n'
+                        || (*e == '\r' && e[1] == '\n'))) {
+        if (f == tcol)
+          t = v * in->time_scale;
+        else
+          w->row[k] = temp_value(in, v, in->units[k]);
+      } else {
+        e = field_end(q, delim);
+        if (e == NULL)
+          return NULL;
+        if (f == tcol) {
+          if (cell_time(in, q, (size_t)(e - q), &t, &t_missing) != 0)
+            return NULL;
+        } else if (ff_import_parse_number(q, (size_t)(e - q), dec, &v) == 0) {
+          w->row[k] = temp_value(in, v, in->units[k]);
+        } else if (!ff_import_is_missing_text(q, (size_t)(e - q))) {
+          return NULL;
+        }
+      }
+    } else {
+      e = field_end(q, delim);
+      if (e == NULL || (f >= ncol && !all_blank(q, e)))
+        return NULL;
+    }
+    q = e;
+    if (*q != delim)
+      break;
+    q++;
+  }
+  if (f + 1 < in->min_fields)
+    return NULL;                   /* a short row: the general reader says so */
+  q += *q == '\r' ? 2 : 1;
+  w->slot++;
+  if (t_missing) {
+    c->rows_no_time++;
+    c->holes++;
+    fs->t[slot] = NAN;
+    return q;
+  }
+  fs->t[slot] = t;
+  if (c->have_t && !(t > c->last_t))
+    c->increasing = 0;
+  if (!c->have_t) {
+    c->have_t = 1;
+    c->first_t = t;
+  }
+  c->last_t = t;
+  for (size_t k = 0; k < nch; k++) {
+    double y = w->row[k];
+    fs->v[k][slot] = y;
+    if (isnan(y)) {
+      w->missing[k]++;
+      continue;
+    }
+    present++;
+    w->lo[k] = y < w->lo[k] ? y : w->lo[k];
+    w->hi[k] = y > w->hi[k] ? y : w->hi[k];
+  }
+  if (present == 0)
+    c->all_missing++;
+  return q;
+}
+
+/* Parses the complete lines in s[0..n) (s[n-1] is '\n'). */
+static int parse_lines(struct worker *w, const char *s, size_t n)
+{
+  const char *p = s, *e = s + n;
+
+  while (p < e) {
+    p = parse_line(w, p);
+    if (p == NULL)
+      return -1;
+  }
+  return p == e ? 0 : -1;
+}
+
+/* Pass 2 for chunk i: parses its lines into its slots. */
+static void parse_chunk(void *ctx, size_t i)
+{
+  struct fast *fs = ctx;
+  struct chunk *c = &fs->ck[i];
+  struct worker w;
+  size_t len = c->end - c->start, cap, carry = 0, off = c->start;
+  size_t nch = fs->nch;
+  char *buf;
+  int ok = 1;
+
+  c->increasing = 1;
+  if (c->lines == 0 || atomic_load(&fs->abandon))
+    return;
+  cap = len < block_size() ? len : block_size();
+  buf = malloc(cap + 1);
+  w.fs = fs;
+  w.c = c;
+  w.slot = c->base;
+  w.last_slot = c->base + c->lines;
+  w.row = malloc((nch ? nch : 1) * sizeof *w.row);
+  w.missing = fs->c_missing + i * nch;
+  w.lo = fs->c_lo + i * nch;
+  w.hi = fs->c_hi + i * nch;
+  for (size_t k = 0; k < nch; k++) {
+    w.missing[k] = 0;
+    w.lo[k] = INFINITY;
+    w.hi[k] = -INFINITY;
+  }
+  if (buf == NULL || w.row == NULL)
+    ok = 0;
+  while (ok && !atomic_load(&fs->abandon)) {
+    size_t want = c->end - off < cap - carry ? c->end - off : cap - carry;
+    size_t have;
+    if (read_at(fs, buf + carry, want, off) != 0) {
+      ok = 0;
+      break;
+    }
+    off += want;
+    have = carry + want;
+    if (off == c->end) {             /* the chunk's last lines */
+      if (have > 0 && buf[have - 1] != '\n') {
+        /* only the file's last line may lack its line end; a lone CR
+         * there is the general reader's business */
+        if (c->end != fs->size || buf[have - 1] == '\r')
+          ok = 0;
+        else
+          buf[have++] = '\n';
+      }
+      if (ok && have > 0 && parse_lines(&w, buf, have) != 0)
+        ok = 0;
+      break;
+    } else {
+      size_t used = have;            /* up to the block's last '\n' */
+      while (used > 0 && buf[used - 1] != '\n')
+        used--;
+      if (used == 0) {
+        ok = 0;                      /* a line longer than a block */
+        break;
+      }
+      if (parse_lines(&w, buf, used) != 0) {
+        ok = 0;
+        break;
+      }
+      carry = have - used;
+      memmove(buf, buf + used, carry);
+      if (carry == cap) {
+        ok = 0;
+        break;
+      }
+    }
+  }
+  if (ok && w.slot != w.last_slot)
+    ok = 0;                          /* the file changed under us */
+  if (!ok)
+    atomic_store(&fs->abandon, 1);
+  free(w.row);
+  free(buf);
+}
+
+static void shift_part(void *ctx, size_t i)
+{
+  struct fast *fs = ctx;
+  size_t per = (fs->n + fs->n_chunks - 1) / fs->n_chunks;
+  size_t a = i * per, b = a + per < fs->n ? a + per : fs->n;
+
+  for (size_t j = a; j < b; j++)
+    fs->t[j] -= fs->t0;
+}
+
+struct progress_map {
+  const struct ff_fast_in *in;
+  size_t size;
+};
+
+static void chunk_done(void *ctx, size_t done, size_t total)
+{
+  const struct progress_map *pm = ctx;
+  unsigned long long d = (unsigned long long)pm->size;
+
+  if (done < total)
+    d = (unsigned long long)((double)pm->size * (double)done / (double)total);
+  pm->in->progress(pm->in->progress_ctx, d, (unsigned long long)pm->size);
+}
+
+/* Moves slot s to row n. */
+static void move_row(struct fast *fs, size_t s, size_t n)
+{
+  fs->t[n] = fs->t[s];
+  for (size_t k = 0; k < fs->nch; k++)
+    fs->v[k][n] = fs->v[k][s];
+}
+
+/*
+ * Keeps the rows the general reader keeps, in order: skips holes, repeated
+ * and backwards times and rows without any temperature, with its counters
+ * and line numbers; folds the channels' missing counts and ranges.
+ */
+static void compact(struct fast *fs, struct ff_dataset *ds,
+                    unsigned long first_line)
+{
+  struct ff_import_stats *st = &ds->stats;
+  size_t nch = fs->nch, n = 0;
+  double last = 0.0;
+
+  for (size_t k = 0; k < nch; k++) {
+    ds->ch[k].n_missing = 0;
+    ds->ch[k].min_c = INFINITY;
+    ds->ch[k].max_c = -INFINITY;
+  }
+  for (size_t i = 0; i < fs->n_chunks; i++) {
+    struct chunk *c = &fs->ck[i];
+    if (c->lines == 0)
+      continue;
+    st->rows_read += c->rows_read;
+    st->rows_no_time += c->rows_no_time;
+    ds->dialect.comment_lines += c->comments;
+    if (!c->have_t)
+      continue;
+    if (c->holes == 0 && c->all_missing == 0 && c->increasing
+        && (n == 0 || c->first_t > last)) {
+      /* the common case: every line a kept row */
+      if (c->base != n) {
+        memmove(fs->t + n, fs->t + c->base, c->lines * sizeof *fs->t);
+        for (size_t k = 0; k < nch; k++)
+          memmove(fs->v[k] + n, fs->v[k] + c->base,
+                  c->lines * sizeof *fs->v[k]);
+      }
+      for (size_t k = 0; k < nch; k++) {
+        struct ff_channel *ch = &ds->ch[k];
+        double lo = fs->c_lo[i * nch + k], hi = fs->c_hi[i * nch + k];
+        ch->n_missing += fs->c_missing[i * nch + k];
+        ch->min_c = lo < ch->min_c ? lo : ch->min_c;
+        ch->max_c = hi > ch->max_c ? hi : ch->max_c;
+      }
+      n += c->lines;
+      last = c->last_t;
+      continue;
+    }
+    for (size_t s = c->base; s < c->base + c->lines; s++) {
+      double t = fs->t[s];
+      size_t present = 0;
+      if (isnan(t))
+        continue;
+      if (n > 0 && !(t > last)) {
+        if (t < last) {
+          st->rows_time_backwards++;
+          if (st->first_backwards_line == 0)
+            st->first_backwards_line = first_line + (unsigned long)s;
+        } else {
+          st->rows_time_duplicate++;
+          if (st->first_duplicate_line == 0)
+            st->first_duplicate_line = first_line + (unsigned long)s;
+        }
+        continue;
+      }
+      for (size_t k = 0; k < nch; k++)
+        present += !isnan(fs->v[k][s]);
+      if (present == 0) {
+        st->rows_all_missing++;
+        continue;
+      }
+      if (s != n)
+        move_row(fs, s, n);
+      for (size_t k = 0; k < nch; k++) {
+        struct ff_channel *ch = &ds->ch[k];
+        double y = fs->v[k][n];
+        if (isnan(y)) {
+          ch->n_missing++;
+          continue;
+        }
+        ch->min_c = y < ch->min_c ? y : ch->min_c;
+        ch->max_c = y > ch->max_c ? y : ch->max_c;
+      }
+      n++;
+      last = t;
+    }
+  }
+  fs->n = n;
+}
+
+static void free_slots(struct fast *fs)
+{
+  free(fs->t);
+  fs->t = NULL;
+  for (size_t k = 0; fs->v != NULL && k < fs->nch; k++)
+    free(fs->v[k]);
+  free(fs->v);
+  fs->v = NULL;
+}
+
+/* Puts ds back as it came (for the general reader) and says "declined". */
+static int decline(struct fast *fs, struct ff_dataset *ds)
+{
+  free_slots(fs);
+  free(fs->ck);
+  free(fs->c_missing);
+  free(fs->c_lo);
+  free(fs->c_hi);
+  memset(&ds->stats, 0, sizeof ds->stats);
+  ds->dialect.comment_lines = 0;
+  ds->n = 0;
+  for (size_t k = 0; k < ds->n_channels; k++) {
+    ds->ch[k].n_missing = 0;
+    ds->ch[k].min_c = ds->ch[k].max_c = NAN;
+  }
+  return FF_FAST_DECLINED;
+}
+
+static size_t online_cpus(void)
+{
+  long n = sysconf(_SC_NPROCESSORS_ONLN);
+  return n > 1 ? (size_t)n : 1;
+}
+
+int ff_import_fast(const struct ff_fast_in *in, struct ff_dataset *ds)
+{
+  struct fast fs;
+  size_t region, per, slots = 0, with_values = 0;
+  const char *env = getenv("FF_IMPORT_NO_FAST");
+
+  if (in->no_fast || (env != NULL && env[0] != '\0' && strcmp(env, "0") != 0))
+    return FF_FAST_DECLINED;
+  if (in->delimiter == ' ' || in->delimiter == '"' || in->delimiter == '#'
+      || in->delimiter == '\n' || in->delimiter == '\r'
+      || in->delimiter == '\0' || in->delimiter == in->decimal
+      || (in->decimal >= '0' && in->decimal <= '9')
+      || in->size <= in->data_offset || ds->n_channels == 0)
+    return FF_FAST_DECLINED;
+  memset(&fs, 0, sizeof fs);
+  atomic_init(&fs.abandon, 0);
+  fs.in = in;
+  fs.size = in->size;
+  fs.nch = ds->n_channels;
+  region = in->size - in->data_offset;
+  per = region / (online_cpus() * FAST_CHUNKS_PER_THREAD);
+  per = per < FAST_MIN_CHUNK ? FAST_MIN_CHUNK
+        : per > FAST_MAX_CHUNK ? FAST_MAX_CHUNK : per;
+  if (tune_chunk > 0)
+    per = tune_chunk;
+  fs.n_chunks = (region + per - 1) / per;
+  fs.ck = calloc(fs.n_chunks, sizeof *fs.ck);
+  fs.c_missing = calloc(fs.n_chunks * fs.nch, sizeof *fs.c_missing);
+  fs.c_lo = calloc(fs.n_chunks * fs.nch, sizeof *fs.c_lo);
+  fs.c_hi = calloc(fs.n_chunks * fs.nch, sizeof *fs.c_hi);
+  if (fs.ck == NULL || fs.c_missing == NULL || fs.c_lo == NULL
+      || fs.c_hi == NULL)
+    return decline(&fs, ds);
+  for (size_t i = 0; i < fs.n_chunks; i++) {
+    fs.ck[i].lo = in->data_offset + i * per;
+    fs.ck[i].hi = i + 1 == fs.n_chunks ? in->size
+                  : in->data_offset + (i + 1) * per;
+  }
+
+  /* pass 1: line starts per chunk, then exact room for them */
+  ff_parallel_for(fs.n_chunks, count_chunk, &fs);
+  if (atomic_load(&fs.abandon))
+    return decline(&fs, ds);
+  for (size_t i = 0, next = in->size; i < fs.n_chunks; i++) {
+    size_t j = fs.n_chunks - 1 - i;
+    struct chunk *c = &fs.ck[j];
+    if (!c->has_start) {
+      c->lines = 0;
+      continue;
+    }
+    c->end = next;
+    next = c->start;
+  }
+  for (size_t i = 0; i < fs.n_chunks; i++) {
+    fs.ck[i].base = slots;
+    slots += fs.ck[i].lines;
+  }
+  fs.t = malloc(slots * sizeof *fs.t);
+  fs.v = calloc(fs.nch, sizeof *fs.v);
+  if (fs.t == NULL || fs.v == NULL)
+    return decline(&fs, ds);
+  for (size_t k = 0; k < fs.nch; k++) {
+    fs.v[k] = malloc(slots * sizeof *fs.v[k]);
+    if (fs.v[k] == NULL)
+      return decline(&fs, ds);
+  }
+
+  /* pass 2: parse every chunk into its slots */
+  if (in->progress != NULL) {
+    struct progress_map pm = { in, in->size };
+    ff_parallel_for_progress(fs.n_chunks, parse_chunk, &fs, chunk_done, &pm);
+  } else {
+    ff_parallel_for(fs.n_chunks, parse_chunk, &fs);
+  }
+  if (atomic_load(&fs.abandon))
+    return decline(&fs, ds);
+
+  compact(&fs, ds, ds->dialect.first_data_line);
+  for (size_t k = 0; k < fs.nch; k++)
+    with_values += ds->ch[k].n_missing < fs.n;
+  if (fs.n == 0 || with_values == 0)
+    return decline(&fs, ds);         /* the general reader explains */
+  fs.t0 = fs.t[0];
+  ff_parallel_for(fs.n_chunks, shift_part, &fs);
+
+  /* hand the arrays over, trimmed to the rows kept */
+  ds->n = fs.n;
+  ds->stats.rows_kept = fs.n;
+  ds->t0_s = fs.t0;
+  ds->t_s = fs.t;
+  if (fs.n < slots) {
+    double *t = realloc(ds->t_s, fs.n * sizeof *t);
+    if (t != NULL)
+      ds->t_s = t;
+  }
+  for (size_t k = 0; k < fs.nch; k++) {
+    struct ff_channel *ch = &ds->ch[k];
+    ch->temp_c = fs.v[k];
+    if (fs.n < slots) {
+      double *y = realloc(ch->temp_c, fs.n * sizeof *y);
+      if (y != NULL)
+        ch->temp_c = y;
+    }
+    if (ch->n_missing == fs.n)
+      ch->min_c = ch->max_c = NAN;
+  }
+  free(fs.v);
+  free(fs.ck);
+  free(fs.c_missing);
+  free(fs.c_lo);
+  free(fs.c_hi);
+  atomic_fetch_add(&fast_done, 1);
+  return FF_OK;
+}
