@@ -218,52 +218,16 @@ static double quantum(const struct dctx *c, double step, size_t zeros)
  * (1 <= i < n). */
 static double est_value(const struct dctx *c, int which, size_t i)
 {
-  return which == 0 ? fabs(c->y[i + 1] - 2.0 * c->y[i] + c->y[i - 1])
-                    : c->t[i] - c->t[i - 1];
+  return dd_sel_value(c->t, c->y, which, i);
 }
 
 /* Channels longer than this take their medians without a copy. */
 #define MEDIAN_COPY_MAX 65536
-#define RADIX_BITS 16
-#define RADIX (1u << RADIX_BITS)
-
-/*
- * The value of rank r (0-based) among est_value(c, which, i), i in
- * [i0, i1), without a copy: a radix selection on the bit patterns, 16 bits
- * a pass. The values are never negative, zero or NaN's sign aside (+0 and
- * positive numbers and +inf only, by construction, checked by the
- * caller), and such doubles order as their bit patterns do, so the value
- * found is exactly the one a sort would put at r.
- */
-static double est_select(const struct dctx *c, int which, size_t i0,
-                         size_t i1, size_t r, size_t *cnt)
-{
-  uint64_t prefix = 0, mask = 0;
-  double x;
-
-  for (int shift = 64 - RADIX_BITS; shift >= 0; shift -= RADIX_BITS) {
-    size_t d = 0;
-    memset(cnt, 0, RADIX * sizeof *cnt);
-    for (size_t i = i0; i < i1; i++) {
-      double v = est_value(c, which, i);
-      uint64_t key;
-      memcpy(&key, &v, sizeof key);
-      if ((key & mask) == prefix)
-        cnt[(key >> shift) & (RADIX - 1)]++;
-    }
-    while (r >= cnt[d])
-      r -= cnt[d++];
-    prefix |= (uint64_t)d << shift;
-    mask |= (uint64_t)(RADIX - 1) << shift;
-  }
-  memcpy(&x, &prefix, sizeof x);
-  return x;
-}
 
 /* Median of est_value over [i0, i1) into *out: the middle value, or the
- * mean of the two middle values, as gsl_stats_median gives it. cnt: RADIX
- * counters; NULL: through a copy (short channels). -1 when out of
- * memory. */
+ * mean of the two middle values, as gsl_stats_median gives it. cnt:
+ * DD_SEL_RADIX counters; NULL: through a copy (short channels). -1 when
+ * out of memory. */
 static int est_median(const struct dctx *c, int which, size_t i0,
                       size_t i1, size_t *cnt, double *out)
 {
@@ -279,9 +243,12 @@ static int est_median(const struct dctx *c, int which, size_t i0,
     free(v);
     return 0;
   }
-  *out = est_select(c, which, i0, i1, lhs, cnt);
-  if (lhs != rhs)
-    *out = (*out + est_select(c, which, i0, i1, rhs, cnt)) / 2.0;
+  {
+    double v[2];
+    if (dd_select_pair(c->t, c->y, which, i0, i1, lhs, rhs, cnt, v) != 0)
+      return -1;
+    *out = lhs != rhs ? (v[0] + v[1]) / 2.0 : v[0];
+  }
   return 0;
 }
 
@@ -296,7 +263,7 @@ static int estimate_noise(struct dctx *c)
   for (size_t i = 1; i + 1 < n && plain; i++)
     plain = !isnan(est_value(c, 0, i));
   if (n > MEDIAN_COPY_MAX && plain) {
-    cnt = malloc(RADIX * sizeof *cnt);
+    cnt = malloc(DD_SEL_RADIX * sizeof *cnt);
     if (cnt == NULL)
       return -1;
   }

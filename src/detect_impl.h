@@ -2,6 +2,7 @@
 #ifndef FF_DETECT_IMPL_H
 #define FF_DETECT_IMPL_H
 
+#include <math.h>
 #include <stddef.h>
 #include "frostfit/detect.h"
 
@@ -78,5 +79,21 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0,
               size_t i0, size_t i1);
 
 double dd_median(double *v, size_t n);  /* reorders v */
+
+/* detect_select.c: exact order statistics of a channel's derived values
+ * without a copy. which 0: |y[i+1] - 2 y[i] + y[i-1]| (1 <= i < n - 1);
+ * which 1: t[i] - t[i-1] (1 <= i < n). */
+#define DD_SEL_RADIX 65536u    /* counters dd_select_pair needs */
+static inline double dd_sel_value(const double *t, const double *y,
+                                  int which, size_t i)
+{
+  return which == 0 ? fabs(y[i + 1] - 2.0 * y[i] + y[i - 1])
+                    : t[i] - t[i - 1];
+}
+/* The values of ranks r0 <= r1 (0-based) among those of [i0, i1) into v,
+ * exactly as a sort would place them; cnt: DD_SEL_RADIX counters. The
+ * values must be +0, positive or +inf. Returns 0, or -1 out of memory. */
+int dd_select_pair(const double *t, const double *y, int which, size_t i0,
+                   size_t i1, size_t r0, size_t r1, size_t *cnt, double v[2]);
 
 #endif /* FF_DETECT_IMPL_H */
