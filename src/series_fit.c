@@ -8,6 +8,7 @@
 #include <string.h>
 #include <strings.h>
 
+#include "frostfit/parallel.h"
 #include "series_impl.h"
 
 /* ---- particles from a formula: simple salts only ---- */
@@ -335,6 +336,23 @@ static void fit_unknown(struct ff_series *s, struct ff_series_unknown *g,
   free(u);
 }
 
+/* The groups are independent: item k < n_solutes fits solute k, the rest
+ * the unknowns; each reads the runs and writes only its own group. */
+struct fit_job {
+  struct ff_series *s;
+  const struct ff_series_opts *o;
+};
+
+static void fit_one(void *ctx, size_t k)
+{
+  const struct fit_job *j = ctx;
+
+  if (k < j->s->n_solutes)
+    fit_solute(j->s, &j->s->solutes[k], j->o);
+  else
+    fit_unknown(j->s, &j->s->unknowns[k - j->s->n_solutes], j->o);
+}
+
 int series_fit(struct ff_series *s, const struct ff_sheet *sh,
                const struct ff_series_opts *o)
 {
@@ -398,16 +416,16 @@ int series_fit(struct ff_series *s, const struct ff_sheet *sh,
   s->n_unknowns = nu;
   if (st != FF_OK)
     goto done;
-  for (size_t k = 0; k < nk; k++) {
-    fit_solute(s, &s->solutes[k], o);
+  {
+    struct fit_job job = { s, o };
+    ff_parallel_for(nk + nu, fit_one, &job);
+  }
+  for (size_t k = 0; k < nk; k++)
     if (s->solutes[k].status == FF_EIO)
       st = FF_EIO;
-  }
-  for (size_t k = 0; k < nu; k++) {
-    fit_unknown(s, &s->unknowns[k], o);
+  for (size_t k = 0; k < nu; k++)
     if (s->unknowns[k].status == FF_EIO)
       st = FF_EIO;
-  }
 done:
   free(keys);
   free(ukeys);

@@ -384,3 +384,82 @@ Test(series, particles_from_formula_cells_and_charges)
     cr_expect_eq(p.z_minus, c[k].z_minus, "case %zu", k);
   }
 }
+
+/* The solute and unknown fits run on the worker pool; each group must
+ * come out in the order its first run stands in the sheet, holding the
+ * very numbers a fit of that group alone gives (the model, and the Monte
+ * Carlo of u(i_limit) with the series' draws and seed). Demo sheet:
+ * urea, NaCl, CaCl2, MgSO4 in water and one unknown in cyclohexane. */
+Test(series, group_fits_in_sheet_order_as_fitted_alone)
+{
+  struct fixture f;
+  const struct ff_series_opts so = FF_SERIES_OPTS_DEFAULT;
+  static const char *const order[] = { "urea", "sodium chloride",
+                                       "calcium chloride",
+                                       "magnesium sulfate" };
+
+  load(&f, "datasets/demo/sheet.csv");
+  cr_assert_eq(f.s.n_solutes, 4);
+  cr_assert_eq(f.s.n_unknowns, 1);
+  for (size_t k = 0; k < f.s.n_solutes; k++) {
+    const struct ff_series_solute *g = &f.s.solutes[k];
+    double m[16], i[16], u[16], um[16];
+    struct ff_regress_input in = { 0 };
+    struct ff_regress_opts ro = FF_REGRESS_OPTS_DEFAULT;
+    struct ff_fit fit = FF_FIT_INIT;
+    struct ff_mc_summary mc;
+    struct ff_diag d = FF_DIAG_INIT;
+
+    cr_expect_str_eq(g->solute, order[k]);
+    cr_assert_eq(g->status, FF_OK, "%s: %s", g->solute, g->diag.msg);
+    cr_assert(g->has_mc && g->reg.has_particles, "%s", g->solute);
+    cr_assert_leq(g->n, 16);
+    for (size_t r = 0; r < g->n; r++) {
+      const struct ff_series_run *x = &f.s.runs[g->runs[r]];
+      m[r] = x->molality_mol_kg;
+      i[r] = x->th.vant_hoff_i;
+      u[r] = x->th.u_vant_hoff_i;
+      um[r] = x->u_molality_mol_kg;
+    }
+    in.n = g->n;
+    in.m_mol_kg = m;
+    in.i_obs = i;
+    in.u_i = u;
+    in.u_m_mol_kg = um;
+    in.p = g->particles;
+    in.a_phi = g->a_phi;
+    cr_assert_eq(ff_regress_fit_model(&in, g->reg.particles_model, &ro, &fit,
+                                      &d), FF_OK, "%s", d.msg);
+    cr_expect_float_eq(fit.i_limit,
+                       g->reg.fit[g->reg.particles_model].i_limit, 0.0,
+                       "%s", g->solute);
+    ff_fit_release(&fit);
+    cr_assert_eq(ff_regress_monte_carlo(&in, g->reg.particles_model, &ro,
+                                        so.mc_fit_draws, so.seed, &mc, &d),
+                 FF_OK, "%s", d.msg);
+    cr_expect_eq(mc.n_ok, g->mc.n_ok);
+    cr_expect_float_eq(mc.sd, g->mc.sd, 0.0, "%s", g->solute);
+    cr_expect_float_eq(mc.median, g->mc.median, 0.0, "%s", g->solute);
+  }
+  /* The unknown: its three runs alone give the same extrapolation. */
+  {
+    const struct ff_series_unknown *g = &f.s.unknowns[0];
+    double c[8], mm[8], u[8];
+    struct ff_mm_result r;
+    struct ff_diag d = FF_DIAG_INIT;
+
+    cr_assert_eq(g->status, FF_OK, "%s", g->diag.msg);
+    cr_assert_leq(g->n, 8);
+    for (size_t k = 0; k < g->n; k++) {
+      const struct ff_series_run *x = &f.s.runs[g->runs[k]];
+      c[k] = x->conc_g_kg;
+      mm[k] = x->mass.m_g_mol;
+      u[k] = x->mass.u_m_g_mol;
+    }
+    cr_assert_eq(ff_regress_molar_mass(c, mm, u, g->n, so.confidence, &r,
+                                       &d), FF_OK, "%s", d.msg);
+    cr_expect_float_eq(r.m0_g_mol, g->mm.m0_g_mol, 0.0);
+    cr_expect_float_eq(r.u_m0_g_mol, g->mm.u_m0_g_mol, 0.0);
+  }
+  unload(&f);
+}
