@@ -314,6 +314,58 @@ static double smooth_at(const struct dctx *c, size_t i)
   return s / (double)(b - a);
 }
 
+/* Readings summed side by side: independent sums keep the adder busy
+ * where one sum waits for its previous addition. */
+#define SMOOTH_LANES 8
+
+/*
+ * smooth_at for every j of [i0, i1) into out. Where the window is whole,
+ * SMOOTH_LANES neighbouring sums are formed together, each the same
+ * additions in the same order as smooth_at's (from 0.0, left to right), so
+ * each value is the same number; the edges of the channel go through
+ * smooth_at itself.
+ */
+static void smooth_block(const struct dctx *c, size_t i0, size_t i1,
+                         double *out)
+{
+  size_t h = c->h, wn = 2 * h + 1, a, b, j;
+  double wd = (double)wn;
+
+  a = i0 > h ? i0 : h;                       /* j - h >= 0 */
+  b = c->n >= h && i1 > c->n - h ? c->n - h : i1;   /* j + h < n */
+  if (a > i1)
+    a = i1;
+  if (b < a)
+    b = a;
+  for (j = i0; j < a; j++)
+    out[j - i0] = smooth_at(c, j);
+  for (j = a; j + SMOOTH_LANES <= b; j += SMOOTH_LANES) {
+    const double *y = c->y + (j - h);
+    double s0 = 0.0, s1 = 0.0, s2 = 0.0, s3 = 0.0, s4 = 0.0, s5 = 0.0,
+           s6 = 0.0, s7 = 0.0, *o = out + (j - i0);
+    for (size_t q = 0; q < wn; q++) {
+      s0 += y[q];
+      s1 += y[q + 1];
+      s2 += y[q + 2];
+      s3 += y[q + 3];
+      s4 += y[q + 4];
+      s5 += y[q + 5];
+      s6 += y[q + 6];
+      s7 += y[q + 7];
+    }
+    o[0] = s0 / wd;
+    o[1] = s1 / wd;
+    o[2] = s2 / wd;
+    o[3] = s3 / wd;
+    o[4] = s4 / wd;
+    o[5] = s5 / wd;
+    o[6] = s6 / wd;
+    o[7] = s7 / wd;
+  }
+  for (; j < i1; j++)
+    out[j - i0] = smooth_at(c, j);
+}
+
 double dd_ys_fill(const struct dctx *c, size_t i)
 {
   struct ys_cache *k = c->ysc;
@@ -335,8 +387,10 @@ double dd_ys_fill(const struct dctx *c, size_t i)
   }
   i0 = (tag - 1) * YS_BLOCK;
   i1 = i0 + YS_BLOCK < c->n ? i0 + YS_BLOCK : c->n;
-  for (size_t j = i0; j < i1; j++)
-    k->v[(size_t)w * YS_BLOCK + (j - i0)] = smooth_at(c, j);
+#ifdef FD_DEBUG
+  { extern unsigned long fd_fills; fd_fills++; }
+#endif
+  smooth_block(c, i0, i1, k->v + (size_t)w * YS_BLOCK);
   k->tag[w] = tag;
   k->filled[w] = ++k->clock;
   k->last = w;
@@ -415,12 +469,17 @@ static size_t branch_end(const struct dctx *c, size_t i, double rise,
                     2.0 * c->res);
 
   *thaw = 0;
+  double ym = dd_ys(c, rm);     /* the value at rm, kept */
+
   for (size_t k = i; k < c->n; k++) {
-    if (dd_ys(c, k) < dd_ys(c, rm))
+    double yk = dd_ys(c, k);
+    if (yk < ym) {
       rm = k;
-    if (dd_ys(c, k) > dd_ys(c, rm) + lim) {
+      ym = yk;
+    }
+    if (yk > ym + lim) {
       size_t j = k;
-      while (j > rm && dd_ys(c, j) > dd_ys(c, rm) + tol)
+      while (j > rm && dd_ys(c, j) > ym + tol)
         j--;
       *thaw = 1;
       return j + 1;
@@ -718,9 +777,14 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
    * samples). Its start carries the probe's transient: a lag leaves
    * exp(-6.9) = 0.1 % of the offset after 3 t90; 30 s when the rise gives
    * no measure. */
-  for (size_t k = seg0; k < m; k++)
-    if (dd_ys(c, k) > dd_ys(c, lw0))
-      lw0 = k;
+  {
+    double yw = dd_ys(c, lw0);
+    for (size_t k = seg0; k < m; k++)
+      if (dd_ys(c, k) > yw) {
+        lw0 = k;
+        yw = dd_ys(c, k);
+      }
+  }
   lw1 = dd_index_at(c, c->t[m] - fmax((double)(h + 1) * c->dt, 0.5 * t90));
   if (lw1 > lw0)
     fit_liquid(c, e, lw0, lw1, t90 > 0.0 ? fmax(LIQUID_SKIP_MIN_S, 3.0 * t90)
@@ -848,9 +912,14 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
   e->start_s = c->t[seg0];
   e->end_s = c->t[b_end - 1];
   e->noise_k = c->sigma;
-  for (size_t q = seg0; q < k; q++)
-    if (dd_ys(c, q) > dd_ys(c, lw0))
-      lw0 = q;
+  {
+    double yw = dd_ys(c, lw0);
+    for (size_t q = seg0; q < k; q++)
+      if (dd_ys(c, q) > yw) {
+        lw0 = q;
+        yw = dd_ys(c, q);
+      }
+  }
   /* The corner is rounded by the probe lag: the liquid fits stop short. */
   lw1 = dd_index_at(c, c->t[k] - 0.5 * BREAK_WINDOW_S);
   if (lw1 > lw0 + 3)
@@ -978,9 +1047,14 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
       else if (dd_ys(c, j) - slide_min_at(&sm, lo) < rise)
         continue;
     }
-    for (size_t k = lo; k <= j; k++)
-      if (dd_ys(c, k) < dd_ys(c, mi))
-        mi = k;
+    {
+      double ymi = dd_ys(c, mi);
+      for (size_t k = lo; k <= j; k++)
+        if (dd_ys(c, k) < ymi) {
+          mi = k;
+          ymi = dd_ys(c, k);
+        }
+    }
     if (dd_ys(c, j) - dd_ys(c, mi) < rise)
       continue;
     /* Liquid cooling must lead into it (a warm-up does not). */
@@ -997,10 +1071,12 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
        * within the noise of it is taken as its time. */
       kend = dd_index_at(c, c->t[mi] + p->max_rise_s + 30.0);
       top = j;
-      for (k = j; k <= kend && k < c->n; k++)
-        if (dd_ys(c, k) > dd_ys(c, top))
-          top = k;
       best = dd_ys(c, top);
+      for (k = j; k <= kend && k < c->n; k++)
+        if (dd_ys(c, k) > best) {
+          top = k;
+          best = dd_ys(c, k);
+        }
       /* A freeze holds at or below its peak; a warm-up keeps rising. */
       kend = dd_index_at(c, c->t[top] + 60.0);
       for (k = top; k <= kend && k < c->n; k++)
