@@ -492,6 +492,16 @@ static void molality(const struct ff_sheet *sh, struct ff_series_run *r,
     r->u_solvent_g, row->m_weighed_g_mol, 0.0);
 }
 
+/* One normal draw around x with standard uncertainty u; an input taken as
+ * exact (u = 0: a table Kf, a typed molality) takes no draw, as in
+ * thermo.c. GSL's ziggurat generator: the same normal distribution as
+ * gsl_ran_gaussian's polar method, about three times cheaper (no log for
+ * most draws). */
+static double normal_draw(gsl_rng *g, double x, double u)
+{
+  return u > 0.0 ? x + gsl_ran_gaussian_ziggurat(g, u) : x;
+}
+
 /* Monte Carlo of i = dT/(Kf m) with Gaussian inputs: the cross-check of
  * the GUM first-order value (JCGM 101 idea; GSL's mt19937). */
 static double mc_u_i(const struct ff_series_run *r, size_t draws,
@@ -507,10 +517,9 @@ static double mc_u_i(const struct ff_series_run *r, size_t draws,
     return NAN;
   gsl_rng_set(g, seed);
   for (size_t k = 0; k < draws; k++) {
-    double dt = r->depression_k + gsl_ran_gaussian(g, r->u_depression_k);
-    double m = r->molality_mol_kg
-               + gsl_ran_gaussian(g, r->u_molality_mol_kg);
-    double kf = r->kf_k_kg_mol + gsl_ran_gaussian(g, r->u_kf_k_kg_mol);
+    double dt = normal_draw(g, r->depression_k, r->u_depression_k);
+    double m = normal_draw(g, r->molality_mol_kg, r->u_molality_mol_kg);
+    double kf = normal_draw(g, r->kf_k_kg_mol, r->u_kf_k_kg_mol);
     double i = dt / (kf * m);
     double delta = i - mean;
     mean += delta / (double)(k + 1);
