@@ -3,6 +3,9 @@
  * parallel by hand-written code; anything unusual makes it step aside so
  * that the general (libcsv) reader in import.c produces the result and the
  * exact diagnostic. Both give the same dataset, bit for bit. */
+/* madvise(MADV_HUGEPAGE) is a Linux extension; this file asks for it. */
+#define _DEFAULT_SOURCE 1
+
 #include "import_impl.h"
 #include "frostfit/parallel.h"
 
@@ -13,6 +16,7 @@
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/mman.h>
 #include <sys/types.h>
 #include <unistd.h>
 
@@ -46,6 +50,26 @@ unsigned long ff_import_fast_count(void)
   return atomic_load(&fast_done);
 }
 
+/*
+ * A slot array. Big ones ask for huge pages where the kernel offers them
+ * on request: the arrays are written once, front to back, and 4 KiB page
+ * faults would cost more than the parsing of some columns.
+ */
+static double *slot_array(size_t n)
+{
+  double *a = malloc(n * sizeof *a);
+#if defined(MADV_HUGEPAGE)
+  const uintptr_t huge = (uintptr_t)2 << 20;
+  if (a != NULL && n * sizeof *a >= 4 * huge) {
+    uintptr_t lo = ((uintptr_t)a + huge - 1) & ~(huge - 1);
+    uintptr_t hi = ((uintptr_t)a + n * sizeof *a) & ~(huge - 1);
+    if (hi > lo)
+      (void)madvise((void *)lo, hi - lo, MADV_HUGEPAGE);
+  }
+#endif
+  return a;
+}
+
 static size_t block_size(void)
 {
   return tune_block > 0 ? tune_block : FAST_BLOCK;
@@ -75,6 +99,7 @@ struct fast {
   size_t n_chunks;
   struct chunk *ck;
   size_t nch;                  /* channels */
+  int *cell_of;                /* per column: 0 time, 1 + channel, -1 */
   double *t;                   /* slots: times, NaN = no row */
   double **v;                  /* per channel slots */
   /* per chunk and channel: n_missing, min, max (chunk-major) */
@@ -189,16 +214,23 @@ static double to_celsius(double x, enum ff_temp_unit u)
   }
 }
 
-const char *ff_import_quick_number(const char *p, char decimal, double *out)
+/* A number's digits as an integer: value = (neg ? -1 : 1) * m / 10^nfrac. */
+struct digits {
+  uint64_t m;
+  unsigned nfrac;
+  int neg;
+};
+
+/* Scans the shortcut's numbers (see ff_import_quick_number); NULL when the
+ * text at p is not one. */
+static inline const char *scan_digits(const char *p, char decimal,
+                                      struct digits *dg)
 {
   const char *s = p, *d0;
   uint64_t m = 0;
   size_t nint, nfrac = 0;
   int neg = 0;
-  double x;
 
-  if (!FAST_NUMBERS)
-    return NULL;
   if (*s == '-' || *s == '+')
     neg = *s++ == '-';
   d0 = s;
@@ -211,13 +243,32 @@ const char *ff_import_quick_number(const char *p, char decimal, double *out)
       m = m * 10 + (uint64_t)(*s++ - '0');
     nfrac = (size_t)(s - f0);
   }
-  if (nint + nfrac == 0 || nint + nfrac > 19 || m > ((uint64_t)1 << 53)
-      || nfrac > 22)
+  if (!FAST_NUMBERS || nint + nfrac == 0 || nint + nfrac > 19
+      || m > ((uint64_t)1 << 53) || nfrac > 22)
     return NULL;
-  x = (double)m;
-  x = nfrac > 0 ? x / pow10_exact[nfrac] : x * pow10_exact[0];
-  *out = neg ? -x : x;
+  dg->m = m;
+  dg->nfrac = (unsigned)nfrac;
+  dg->neg = neg;
   return s;
+}
+
+/* The same one correctly rounded operation as ff_import_parse_number. */
+static inline double digits_value(const struct digits *dg)
+{
+  double x = (double)dg->m;
+
+  x = dg->nfrac > 0 ? x / pow10_exact[dg->nfrac] : x * pow10_exact[0];
+  return dg->neg ? -x : x;
+}
+
+const char *ff_import_quick_number(const char *p, char decimal, double *out)
+{
+  struct digits dg;
+  const char *e = scan_digits(p, decimal, &dg);
+
+  if (e != NULL)
+    *out = digits_value(&dg);
+  return e;
 }
 
 /* The end of the field at p: the delimiter or the line end. NULL for what
@@ -243,27 +294,35 @@ static int all_blank(const char *s, const char *e)
   return 1;
 }
 
-/* What one worker keeps while it parses a chunk. */
+/* How a time or temperature cell was read. */
+enum { CELL_MISSING = 0, CELL_VALUE, CELL_DIGITS };
+
+/* What one worker keeps while it parses a chunk. Cells are indexed 0 for
+ * the time, 1 + k for channel k. */
 struct worker {
   struct fast *fs;
   struct chunk *c;
   size_t slot, last_slot;      /* next slot to fill; one past the chunk's */
   double *row;                 /* per channel, the row being read */
+  struct digits *dg;           /* per cell: the shortcut's digits */
+  double *val;                 /* per cell: the number read otherwise */
+  int *how;                    /* per cell: CELL_* */
   size_t *missing;
   double *lo, *hi;
 };
 
-static int cell_time(const struct ff_fast_in *in, const char *s, size_t n,
-                     double *t, int *missing)
+/* A cell the shortcut left: the general reader's number parser and
+ * missing-value markers, exactly as read_time()/read_temp() use them. */
+static int cell_value(const struct ff_fast_in *in, const char *s, size_t n,
+                      int is_time, double *v, int *how)
 {
-  double v;
-
-  if (ff_import_parse_number(s, n, in->decimal, &v) == 0 && isfinite(v)) {
-    *t = v * in->time_scale;
+  if (ff_import_parse_number(s, n, in->decimal, v) == 0
+      && (!is_time || isfinite(*v))) {
+    *how = CELL_VALUE;
     return 0;
   }
   if (ff_import_is_missing_text(s, n)) {
-    *missing = 1;
+    *how = CELL_MISSING;
     return 0;
   }
   return -1;
@@ -287,7 +346,7 @@ static const char *parse_line(struct worker *w, const char *p)
   struct fast *fs = w->fs;
   const struct ff_fast_in *in = fs->in;
   const char delim = in->delimiter, dec = in->decimal;
-  const size_t ncol = in->n_columns, tcol = in->time_col, nch = fs->nch;
+  const size_t ncol = in->n_columns, nch = fs->nch;
   struct chunk *c = w->c;
   const char *q = p;
   size_t slot = w->slot, f = 0, present = 0;
@@ -320,32 +379,23 @@ static const char *parse_line(struct worker *w, const char *p)
   }
   q = p;
   c->rows_read++;
-  for (size_t k = 0; k < nch; k++)
-    w->row[k] = NAN;
+  for (size_t j = 0; j <= nch; j++)
+    w->how[j] = CELL_MISSING;
+  /* first the fields' text; the shortcut's numbers stay integers here so
+   * that their divisions run back to back below */
   for (;; f++) {
     const char *e;
-    double v;
-    long k = f < ncol ? in->chan[f] : -1;
-    if (f < ncol && (f == tcol || k >= 0)) {
-      e = ff_import_quick_number(q, dec, &v);
+    int slot_k = f < ncol ? fs->cell_of[f] : -1;
+    if (slot_k >= 0) {
+      e = scan_digits(q, dec, &w->dg[slot_k]);
       if (e != NULL && (*e == delim || *e == '\n'
                         || (*e == '\r' && e[1] == '\n'))) {
-        if (f == tcol)
-          t = v * in->time_scale;
-        else
-          w->row[k] = temp_value(in, v, in->units[k]);
+        w->how[slot_k] = CELL_DIGITS;
       } else {
         e = field_end(q, delim);
-        if (e == NULL)
+        if (e == NULL || cell_value(in, q, (size_t)(e - q), slot_k == 0,
+                                    &w->val[slot_k], &w->how[slot_k]) != 0)
           return NULL;
-        if (f == tcol) {
-          if (cell_time(in, q, (size_t)(e - q), &t, &t_missing) != 0)
-            return NULL;
-        } else if (ff_import_parse_number(q, (size_t)(e - q), dec, &v) == 0) {
-          w->row[k] = temp_value(in, v, in->units[k]);
-        } else if (!ff_import_is_missing_text(q, (size_t)(e - q))) {
-          return NULL;
-        }
       }
     } else {
       e = field_end(q, delim);
@@ -361,12 +411,22 @@ static const char *parse_line(struct worker *w, const char *p)
     return NULL;                   /* a short row: the general reader says so */
   q += *q == '\r' ? 2 : 1;
   w->slot++;
+  for (size_t j = 0; j <= nch; j++)
+    if (w->how[j] == CELL_DIGITS)
+      w->val[j] = digits_value(&w->dg[j]);
+  if (w->how[0] == CELL_MISSING)
+    t_missing = 1;
+  else
+    t = w->val[0] * in->time_scale;
   if (t_missing) {
     c->rows_no_time++;
     c->holes++;
     fs->t[slot] = NAN;
     return q;
   }
+  for (size_t k = 0; k < nch; k++)
+    w->row[k] = w->how[k + 1] == CELL_MISSING ? NAN
+                : temp_value(in, w->val[k + 1], in->units[k]);
   fs->t[slot] = t;
   if (c->have_t && !(t > c->last_t))
     c->increasing = 0;
@@ -425,6 +485,9 @@ static void parse_chunk(void *ctx, size_t i)
   w.slot = c->base;
   w.last_slot = c->base + c->lines;
   w.row = malloc((nch ? nch : 1) * sizeof *w.row);
+  w.dg = malloc((nch + 1) * sizeof *w.dg);
+  w.val = malloc((nch + 1) * sizeof *w.val);
+  w.how = malloc((nch + 1) * sizeof *w.how);
   w.missing = fs->c_missing + i * nch;
   w.lo = fs->c_lo + i * nch;
   w.hi = fs->c_hi + i * nch;
@@ -433,7 +496,8 @@ static void parse_chunk(void *ctx, size_t i)
     w.lo[k] = INFINITY;
     w.hi[k] = -INFINITY;
   }
-  if (buf == NULL || w.row == NULL)
+  if (buf == NULL || w.row == NULL || w.dg == NULL || w.val == NULL
+      || w.how == NULL)
     ok = 0;
   while (ok && !atomic_load(&fs->abandon)) {
     size_t want = c->end - off < cap - carry ? c->end - off : cap - carry;
@@ -481,6 +545,9 @@ static void parse_chunk(void *ctx, size_t i)
   if (!ok)
     atomic_store(&fs->abandon, 1);
   free(w.row);
+  free(w.dg);
+  free(w.val);
+  free(w.how);
   free(buf);
 }
 
@@ -620,6 +687,7 @@ static int decline(struct fast *fs, struct ff_dataset *ds)
 {
   free_slots(fs);
   free(fs->ck);
+  free(fs->cell_of);
   free(fs->c_missing);
   free(fs->c_lo);
   free(fs->c_hi);
@@ -669,9 +737,13 @@ int ff_import_fast(const struct ff_fast_in *in, struct ff_dataset *ds)
   fs.c_missing = calloc(fs.n_chunks * fs.nch, sizeof *fs.c_missing);
   fs.c_lo = calloc(fs.n_chunks * fs.nch, sizeof *fs.c_lo);
   fs.c_hi = calloc(fs.n_chunks * fs.nch, sizeof *fs.c_hi);
+  fs.cell_of = malloc(in->n_columns * sizeof *fs.cell_of);
   if (fs.ck == NULL || fs.c_missing == NULL || fs.c_lo == NULL
-      || fs.c_hi == NULL)
+      || fs.c_hi == NULL || fs.cell_of == NULL)
     return decline(&fs, ds);
+  for (size_t c = 0; c < in->n_columns; c++)
+    fs.cell_of[c] = c == in->time_col ? 0
+                    : in->chan[c] >= 0 ? (int)in->chan[c] + 1 : -1;
   for (size_t i = 0; i < fs.n_chunks; i++) {
     fs.ck[i].lo = in->data_offset + i * per;
     fs.ck[i].hi = i + 1 == fs.n_chunks ? in->size
@@ -696,12 +768,12 @@ int ff_import_fast(const struct ff_fast_in *in, struct ff_dataset *ds)
     fs.ck[i].base = slots;
     slots += fs.ck[i].lines;
   }
-  fs.t = malloc(slots * sizeof *fs.t);
+  fs.t = slot_array(slots);
   fs.v = calloc(fs.nch, sizeof *fs.v);
   if (fs.t == NULL || fs.v == NULL)
     return decline(&fs, ds);
   for (size_t k = 0; k < fs.nch; k++) {
-    fs.v[k] = malloc(slots * sizeof *fs.v[k]);
+    fs.v[k] = slot_array(slots);
     if (fs.v[k] == NULL)
       return decline(&fs, ds);
   }
@@ -747,6 +819,7 @@ int ff_import_fast(const struct ff_fast_in *in, struct ff_dataset *ds)
   }
   free(fs.v);
   free(fs.ck);
+  free(fs.cell_of);
   free(fs.c_missing);
   free(fs.c_lo);
   free(fs.c_hi);

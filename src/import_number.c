@@ -183,6 +183,15 @@ int ff_import_is_missing_text(const char *s, size_t n)
     return 1;
   if (s[0] >= '0' && s[0] <= '9')
     return 0;                          /* no marker starts with a digit */
+  if (n > 1 && (s[0] == '-' || s[0] == '+' || s[0] == '.')
+      && ((s[1] >= '0' && s[1] <= '9') || s[1] == '.'))
+    return 0;                          /* nor with "-5", "+.", ".5" */
+  {
+    /* the first letters of the markers below and of the runs */
+    char c0 = s[0] >= 'A' && s[0] <= 'Z' ? (char)(s[0] - 'A' + 'a') : s[0];
+    if (strchr("nmioue+-#*?", c0) == NULL)
+      return 0;
+  }
   if (run_of(s, n, '-') || run_of(s, n, '#') || run_of(s, n, '*')
       || run_of(s, n, '?'))
     return 1;

@@ -130,13 +130,15 @@ static enum kind classify(const char *s, size_t n, char *dec)
   int date_only;
 
   *dec = 0;
-  if (ff_import_is_missing_text(s, n))
-    return K_MISSING;
+  /* numbers first: no missing-value marker reads as a number, so the
+   * order of these two tests does not matter, and numbers are common */
   if (ff_import_parse_number(s, n, '.', &x) == 0) {
     if (memchr(s, '.', n) != NULL)
       *dec = '.';
     return K_NUM;
   }
+  if (ff_import_is_missing_text(s, n))
+    return K_MISSING;
   if (ff_import_parse_number(s, n, ',', &x) == 0) {
     *dec = ',';
     return K_NUM;
@@ -328,55 +330,38 @@ struct colstat {
   size_t dot, comma;            /* cells with '.' / ',' decimal marks */
 };
 
-static int pick_delimiter(const char *buf, const struct line *ln, size_t nl,
-                          struct span *f, size_t *nfs, char *best)
+/*
+ * The field count of a line split with delim when strong() holds for it
+ * (two fields or more, two of them numbers or times), else 0. The same
+ * answer as strong(shape_of(...)), sooner: a line without the delimiter
+ * (without any blank for ' ') is one field, and counting stops at two.
+ */
+static size_t strong_nf(const char *s, size_t n, char delim, struct span *f)
 {
-  static const char cand[] = { ';', '\t', ',', ' ' };
-  size_t best_score = 0;
+  size_t nf, num = 0;
+  char dec;
 
-  *best = 0;
-  for (size_t c = 0; c < sizeof cand; c++) {
-    size_t m = 0, mode = 0, run = 0, best_run = 0, score = 0;
-    for (size_t i = 0; i < nl; i++) {
-      struct shape sh;
-      if (ln[i].skip)
-        continue;
-      sh = shape_of(buf + ln[i].off, ln[i].len, cand[c], f);
-      if (strong(sh))
-        nfs[m++] = sh.nf;
-    }
-    if (m == 0)
-      continue;
-    qsort(nfs, m, sizeof *nfs, cmp_size);
-    for (size_t i = 0; i < m; i++) {
-      run = (i > 0 && nfs[i] == nfs[i - 1]) ? run + 1 : 1;
-      if (run > best_run || (run == best_run && nfs[i] > mode)) {
-        best_run = run;
-        mode = nfs[i];
-      }
-    }
-    score = best_run;
-    if (score > best_score) {
-      best_score = score;
-      *best = cand[c];
-    }
+  if (delim == ' ' ? memchr(s, ' ', n) == NULL && memchr(s, '\t', n) == NULL
+                   : memchr(s, delim, n) == NULL)
+    return 0;
+  nf = split(s, n, delim, f, MAX_FIELDS);
+  if (nf < 2)
+    return 0;
+  for (size_t k = 0; k < nf && k < MAX_FIELDS; k++) {
+    enum kind kd = classify(f[k].s, f[k].n, &dec);
+    if ((kd == K_NUM || kd == K_CLOCK || kd == K_DAYTIME || kd == K_ISO)
+        && ++num >= 2)
+      return nf;
   }
-  return best_score > 0;
+  return 0;
 }
 
-static size_t mode_fields(const char *buf, const struct line *ln, size_t nl,
-                          char delim, struct span *f, size_t *nfs)
+/* The most common of nfs[0..m) (sorts them; ties: the larger count of
+ * fields); *run: how often it occurs. */
+static size_t mode_of(size_t *nfs, size_t m, size_t *run_out)
 {
-  size_t m = 0, mode = 0, run = 0, best_run = 0;
+  size_t mode = 0, run = 0, best_run = 0;
 
-  for (size_t i = 0; i < nl; i++) {
-    struct shape sh;
-    if (ln[i].skip)
-      continue;
-    sh = shape_of(buf + ln[i].off, ln[i].len, delim, f);
-    if (strong(sh))
-      nfs[m++] = sh.nf;
-  }
   qsort(nfs, m, sizeof *nfs, cmp_size);
   for (size_t i = 0; i < m; i++) {
     run = (i > 0 && nfs[i] == nfs[i - 1]) ? run + 1 : 1;
@@ -385,7 +370,59 @@ static size_t mode_fields(const char *buf, const struct line *ln, size_t nl,
       mode = nfs[i];
     }
   }
+  *run_out = best_run;
   return mode;
+}
+
+/* Strong lines' field counts with delim into nfs; returns how many. */
+static size_t strong_counts(const char *buf, const struct line *ln,
+                            size_t nl, char delim, struct span *f,
+                            size_t *nfs)
+{
+  size_t m = 0;
+
+  for (size_t i = 0; i < nl; i++) {
+    size_t nf;
+    if (ln[i].skip)
+      continue;
+    nf = strong_nf(buf + ln[i].off, ln[i].len, delim, f);
+    if (nf > 0)
+      nfs[m++] = nf;
+  }
+  return m;
+}
+
+/* The delimiter whose strong lines most often agree on a width, and that
+ * width (the mode of fields, as mode_fields() gives it). */
+static int pick_delimiter(const char *buf, const struct line *ln, size_t nl,
+                          struct span *f, size_t *nfs, char *best,
+                          size_t *best_mode)
+{
+  static const char cand[] = { ';', '\t', ',', ' ' };
+  size_t best_score = 0;
+
+  *best = 0;
+  *best_mode = 0;
+  for (size_t c = 0; c < sizeof cand; c++) {
+    size_t m = strong_counts(buf, ln, nl, cand[c], f, nfs), score, mode;
+    if (m == 0)
+      continue;
+    mode = mode_of(nfs, m, &score);
+    if (score > best_score) {
+      best_score = score;
+      *best = cand[c];
+      *best_mode = mode;
+    }
+  }
+  return best_score > 0;
+}
+
+static size_t mode_fields(const char *buf, const struct line *ln, size_t nl,
+                          char delim, struct span *f, size_t *nfs)
+{
+  size_t run;
+
+  return mode_of(nfs, strong_counts(buf, ln, nl, delim, f, nfs), &run);
 }
 
 static int odd_quotes(const char *s, size_t n)
@@ -719,11 +756,11 @@ int ff_import_sniff(const char *buf, size_t len, int eof, const char *path,
   }
   if (o->delimiter != 0) {
     delim = o->delimiter;
-  } else if (!pick_delimiter(buf, ln, nl, f, nfs, &delim)) {
+    mode = mode_fields(buf, ln, nl, delim, f, nfs);
+  } else if (!pick_delimiter(buf, ln, nl, f, nfs, &delim, &mode)) {
     st = no_table(buf, ln, nl, eof, long_tail, path, d);
     goto done;
   }
-  mode = mode_fields(buf, ln, nl, delim, f, nfs);
   if (mode == 0) {
     st = no_table(buf, ln, nl, eof, long_tail, path, d);
     goto done;
