@@ -191,6 +191,17 @@ static int check_input(const double *t, const double *y, size_t n,
  * if (nearly) every change is a whole multiple of it, or if many successive
  * readings repeat exactly. 0 when the readings look continuous.
  */
+/* The whole number nearest q >= 0 (ties to even, where round() takes
+ * them away from zero: either way 0.5 away, which is all quantum() asks),
+ * without a library call per reading. q >= 2^52 is whole already, and
+ * +inf stays +inf. */
+static inline double near_int(double q)
+{
+  const double two52 = 4503599627370496.0;
+
+  return q < two52 ? (q + two52) - two52 : q;
+}
+
 static double quantum(const struct dctx *c, double step, size_t zeros)
 {
   size_t bad = 0;
@@ -201,7 +212,7 @@ static double quantum(const struct dctx *c, double step, size_t zeros)
     return step;
   for (size_t i = 1; i < c->n; i++) {
     double q = fabs(c->y[i] - c->y[i - 1]) / step;
-    if (fabs(q - round(q)) > 0.01)
+    if (fabs(q - near_int(q)) > 0.01)
       bad++;
   }
   return bad <= c->n / 100 ? step : 0.0;
@@ -259,9 +270,17 @@ static int estimate_noise(struct dctx *c)
   int plain = 1, st;
 
   /* Second differences of finite readings may overflow to +inf but are
-   * never NaN; a NaN would take the copy. */
-  for (size_t i = 1; i + 1 < n && plain; i++)
-    plain = !isnan(est_value(c, 0, i));
+   * never NaN; a NaN would take the copy. The same pass finds the smallest
+   * change and counts the repeats (for quantum()). */
+  for (size_t i = 1; i < n; i++) {
+    double s = fabs(c->y[i] - c->y[i - 1]);
+    if (!(s > 0.0))
+      zeros++;
+    else if (s < step)
+      step = s;
+    if (i + 1 < n && isnan(est_value(c, 0, i)))
+      plain = 0;
+  }
   if (n > MEDIAN_COPY_MAX && plain) {
     cnt = malloc(DD_SEL_RADIX * sizeof *cnt);
     if (cnt == NULL)
@@ -269,13 +288,6 @@ static int estimate_noise(struct dctx *c)
   }
   st = est_median(c, 0, 1, n - 1, cnt, &med);
   c->sigma = 1.4826 * med / sqrt(6.0);
-  for (size_t i = 1; i < n; i++) {
-    double s = fabs(c->y[i] - c->y[i - 1]);
-    if (!(s > 0.0))
-      zeros++;
-    else if (s < step)
-      step = s;
-  }
   if (st == 0)
     st = est_median(c, 1, 1, n, cnt, &c->dt);
   free(cnt);
@@ -413,7 +425,8 @@ static int smooth(struct dctx *c)
   if (c->ysc->v == NULL)
     return -1;
   for (size_t i = 0; i < c->n; i++)
-    big = fmax(big, fabs(c->y[i]));
+    if (fabs(c->y[i]) > big)   /* finite readings: fmax without a call */
+      big = fabs(c->y[i]);
   if (!isfinite(big * (double)(2 * c->h + 2)))
     for (size_t i = 0; i < c->n && !c->ys_nan; i++)
       if (isnan(smooth_at(c, i)))
@@ -855,12 +868,14 @@ static int find_break(const struct dctx *c, size_t a, size_t b, size_t *at)
   if (n < 2 * w + wb)
     return 0;
   ahead = wb > w ? wb : w;
-  R = w + ahead + 1;
+  /* A power of two, so the ring index is a mask, not a division. */
+  for (R = 1; R < w + ahead + 1; R *= 2)
+    ;
   S = calloc(5 * R, sizeof *S);  /* prefix sum k at S[5 (k % R)]; k = 0: 0 */
   if (S == NULL)
     return 0;
   t0 = c->t[a];
-#define PS(k) (S + 5 * ((k) % R))
+#define PS(k) (S + 5 * ((k) & (R - 1)))
 #define SLOPE(i0, i1, out)                                                    \
   do {                                                                        \
     double m_[5];                                                             \

@@ -19,6 +19,10 @@
 /* Fewest points of a Newton fit: three parameters and three to spare
  * (coarse sampling, 10 s, leaves few on a short liquid branch). */
 #define NEWTON_MIN_POINTS 6
+/* Longer liquid branches are fitted as block means, at most this many
+ * (see newton_blocks): a 10 Hz logger gives 6,000 readings in ten minutes
+ * of cooling, and each iteration of the fit costs a few passes over them. */
+#define NEWTON_MAX_POINTS 2048
 /* A quadratic term is kept only when this many standard errors from 0. */
 #define QUAD_SIGNIFICANCE 3.0
 /* Frozen fractions above this are not used by the model: the 1/(1 - x) law
@@ -86,6 +90,7 @@ struct nl_data {
   const double *t, *y;
   size_t n;
   double t_ref;
+  const double *sw;            /* sqrt of each point's weight; NULL: 1 */
   double *e;                   /* exp(-k (t - t_ref)) at k = e_k */
   double e_k;
   int e_ok;
@@ -102,6 +107,8 @@ static int newton_f(const gsl_vector *x, void *data, gsl_vector *f)
     double e = exp(-k * (d->t[i] - d->t_ref));
     d->e[i] = e;
     fv[i * f->stride] = tb + a * e - d->y[i];
+    if (d->sw != NULL)
+      fv[i * f->stride] *= d->sw[i];
   }
   d->e_k = k;
   d->e_ok = 1;
@@ -120,6 +127,11 @@ static int newton_df(const gsl_vector *x, void *data, gsl_matrix *J)
     row[0] = 1.0;
     row[1] = e;
     row[2] = -a * s * e;
+    if (d->sw != NULL) {
+      row[0] = d->sw[i];
+      row[1] *= d->sw[i];
+      row[2] *= d->sw[i];
+    }
   }
   return GSL_SUCCESS;
 }
@@ -140,10 +152,41 @@ static double local_mean(const struct dctx *c, size_t i, size_t m, size_t lo,
   return s / (double)(b - a);
 }
 
+/*
+ * Block means of a long liquid branch [i0, i1): k = ceil(n / max) readings
+ * a block, in order; each block's mean time (from t[i0]) and mean reading
+ * into bt and by, the square root of its count into sw. Returns the number
+ * of blocks. The mean of an exponential over a block differs from its
+ * value at the mean time by (k dt / tau)^2 / 24 of the curve's offset at
+ * most, 1e-7 of it when tau is a twentieth of the window: far below the
+ * noise; the noise of a block mean is sigma / sqrt(count), so weighting by
+ * the count keeps the least-squares problem the readings pose.
+ */
+static size_t newton_blocks(const struct dctx *c, size_t i0, size_t i1,
+                            double *bt, double *by, double *sw)
+{
+  size_t n = i1 - i0, k = (n + NEWTON_MAX_POINTS - 1) / NEWTON_MAX_POINTS,
+         nb = 0;
+
+  for (size_t a = i0; a < i1; a += k) {
+    size_t b = a + k < i1 ? a + k : i1;
+    double st = 0.0, sy = 0.0;
+    for (size_t i = a; i < b; i++) {
+      st += c->t[i] - c->t[i0];
+      sy += c->y[i];
+    }
+    bt[nb] = st / (double)(b - a);
+    by[nb] = sy / (double)(b - a);
+    sw[nb] = sqrt((double)(b - a));
+    nb++;
+  }
+  return nb;
+}
+
 int dd_newton(const struct dctx *c, size_t i0, size_t i1,
               struct ff_liquid_fit *f)
 {
-  size_t n = i1 > i0 ? i1 - i0 : 0, mid, m;
+  size_t n = i1 > i0 ? i1 - i0 : 0, mid, m, nb;
   struct nl_data nd;
   double y1, y2, y3, h, r, k, a, tb, x0[3], span;
   gsl_multifit_nlinear_parameters fp;
@@ -174,18 +217,32 @@ int dd_newton(const struct dctx *c, size_t i0, size_t i1,
   tb = y1 - a;
   a *= exp(k * (c->t[i0 + m / 2] - c->t[i0]));   /* to t_ref = t[i0] */
 
-  nd = (struct nl_data){ c->t + i0, c->y + i0, n, c->t[i0], NULL, 0.0, 0 };
-  nd.e = malloc(n * sizeof *nd.e);
-  if (nd.e == NULL)
-    return -1;
+  nd = (struct nl_data){ c->t + i0, c->y + i0, n, c->t[i0], NULL, NULL,
+                         0.0, 0 };
+  nb = n;
+  if (n > NEWTON_MAX_POINTS) {
+    nd.e = malloc(4 * n * sizeof *nd.e);   /* e, block t, y, sqrt(w) */
+    if (nd.e == NULL)
+      return -1;
+    nb = newton_blocks(c, i0, i1, nd.e + n, nd.e + 2 * n, nd.e + 3 * n);
+    nd.t = nd.e + n;
+    nd.y = nd.e + 2 * n;
+    nd.sw = nd.e + 3 * n;
+    nd.t_ref = 0.0;            /* block times are from t[i0] already */
+    nd.n = nb;
+  } else {
+    nd.e = malloc(n * sizeof *nd.e);
+    if (nd.e == NULL)
+      return -1;
+  }
   fdf.f = newton_f;
   fdf.df = newton_df;
   fdf.fvv = NULL;
-  fdf.n = n;
+  fdf.n = nb;
   fdf.p = 3;
   fdf.params = &nd;
   fp = gsl_multifit_nlinear_default_parameters();
-  w = gsl_multifit_nlinear_alloc(gsl_multifit_nlinear_trust, &fp, n, 3);
+  w = gsl_multifit_nlinear_alloc(gsl_multifit_nlinear_trust, &fp, nb, 3);
   if (w == NULL) {
     free(nd.e);
     return -1;
@@ -202,8 +259,18 @@ int dd_newton(const struct dctx *c, size_t i0, size_t i1,
     const gsl_vector *x = gsl_multifit_nlinear_position(w);
     const gsl_vector *res = gsl_multifit_nlinear_residual(w);
     double kk = gsl_vector_get(x, 2), ss = 0.0;
-    for (size_t i = 0; i < n; i++)
-      ss += gsl_vector_get(res, i) * gsl_vector_get(res, i);
+    if (nb == n) {
+      for (size_t i = 0; i < n; i++)
+        ss += gsl_vector_get(res, i) * gsl_vector_get(res, i);
+    } else {
+      /* The residuals of the readings themselves: rms and the variance
+       * that scales the covariance keep their meaning. */
+      double tb1 = gsl_vector_get(x, 0), a1 = gsl_vector_get(x, 1);
+      for (size_t i = i0; i < i1; i++) {
+        double r1 = tb1 + a1 * exp(-kk * (c->t[i] - c->t[i0])) - c->y[i];
+        ss += r1 * r1;
+      }
+    }
     /* A time constant far beyond the window is not measured by it. */
     if (kk > 0.0 && 1.0 / kk < 30.0 * span && isfinite(gsl_vector_get(x, 0))) {
       f->kind = 1;
