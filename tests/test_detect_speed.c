@@ -10,6 +10,7 @@
 #include <string.h>
 
 #include <gsl/gsl_errno.h>
+#include <gsl/gsl_multifit_nlinear.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 #include <gsl/gsl_statistics_double.h>
@@ -121,4 +122,165 @@ Test(detect_speed, select_exact_when_the_sample_misleads, .init = setup)
   free(t);
   free(y);
   gsl_rng_free(r);
+}
+
+/* ---- the Newton liquid fit on long branches ------------------------ */
+
+#define NW_BATH (-8.0)
+#define NW_A 13.0
+#define NW_TAU 1500.0
+#define NW_SIGMA 0.003
+
+/* A built Newton cooling T = bath + A exp(-(t - t0) / tau) at 10 Hz from a
+ * large clock offset, with normal noise, quantised to 0.1 mK like a
+ * logger's export. */
+static void newton_curve(double *t, double *y, size_t n, double t0,
+                         unsigned long seed)
+{
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+
+  cr_assert(r != NULL);
+  gsl_rng_set(r, seed);
+  for (size_t i = 0; i < n; i++) {
+    t[i] = t0 + (double)i * 0.1;
+    y[i] = round((NW_BATH + NW_A * exp(-(t[i] - t0) / NW_TAU)
+                  + gsl_ran_gaussian(r, NW_SIGMA)) * 1e4) / 1e4;
+  }
+  gsl_rng_free(r);
+}
+
+struct ref_data {
+  const double *t, *y;
+  size_t n;
+};
+
+static int ref_f(const gsl_vector *x, void *p, gsl_vector *f)
+{
+  const struct ref_data *d = p;
+
+  for (size_t i = 0; i < d->n; i++)
+    gsl_vector_set(f, i, gsl_vector_get(x, 0) + gsl_vector_get(x, 1)
+                   * exp(-gsl_vector_get(x, 2) * (d->t[i] - d->t[0]))
+                   - d->y[i]);
+  return GSL_SUCCESS;
+}
+
+static int ref_df(const gsl_vector *x, void *p, gsl_matrix *J)
+{
+  const struct ref_data *d = p;
+
+  for (size_t i = 0; i < d->n; i++) {
+    double s = d->t[i] - d->t[0], e = exp(-gsl_vector_get(x, 2) * s);
+    gsl_matrix_set(J, i, 0, 1.0);
+    gsl_matrix_set(J, i, 1, e);
+    gsl_matrix_set(J, i, 2, -gsl_vector_get(x, 1) * s * e);
+  }
+  return GSL_SUCCESS;
+}
+
+/* The plain fit of every reading, started from the truth: the reference
+ * for the block-mean fit. bath and tau out. */
+static void reference_fit(const double *t, const double *y, size_t n,
+                          double *bath, double *tau)
+{
+  struct ref_data d = { t, y, n };
+  gsl_multifit_nlinear_parameters fp = gsl_multifit_nlinear_default_parameters();
+  gsl_multifit_nlinear_workspace *w =
+    gsl_multifit_nlinear_alloc(gsl_multifit_nlinear_trust, &fp, n, 3);
+  gsl_multifit_nlinear_fdf fdf = { ref_f, ref_df, NULL, n, 3, &d, 0, 0, 0 };
+  double x0[3] = { NW_BATH, NW_A, 1.0 / NW_TAU };
+  gsl_vector_view xv = gsl_vector_view_array(x0, 3);
+  int info;
+
+  cr_assert(w != NULL);
+  cr_assert_eq(gsl_multifit_nlinear_init(&xv.vector, &fdf, w), GSL_SUCCESS);
+  cr_assert_eq(gsl_multifit_nlinear_driver(200, 1e-12, 1e-12, 1e-12, NULL,
+                                           NULL, &info, w), GSL_SUCCESS);
+  *bath = gsl_vector_get(gsl_multifit_nlinear_position(w), 0);
+  *tau = 1.0 / gsl_vector_get(gsl_multifit_nlinear_position(w), 2);
+  gsl_multifit_nlinear_free(w);
+}
+
+/* 60,000 readings (100 min at 10 Hz) from a clock at 1e6 s: the block-mean
+ * fit converges, finds the built bath and time constant within 4 of its
+ * standard uncertainties, and agrees with the fit of every reading to a
+ * twentieth of them. */
+Test(detect_speed, newton_long_branch_matches_full_fit, .init = setup)
+{
+  size_t n = 60000;
+  double *t = malloc(n * sizeof *t), *y = malloc(n * sizeof *y), rb, rt;
+  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
+  struct dctx c;
+  struct ff_liquid_fit f;
+
+  cr_assert(t && y);
+  newton_curve(t, y, n, 1e6, 11);
+  memset(&c, 0, sizeof c);
+  memset(&f, 0, sizeof f);
+  c.t = t;
+  c.y = y;
+  c.n = n;
+  c.p = &p;
+  cr_assert_eq(dd_newton(&c, 0, n, &f), 0, "the fit failed");
+  cr_assert_eq(f.kind, 1);
+  cr_assert(isfinite(f.u_bath_c) && f.u_bath_c > 0.0 && f.u_bath_c < 0.01);
+  cr_assert(isfinite(f.u_tau_s) && f.u_tau_s > 0.0 && f.u_tau_s < 5.0);
+  cr_assert(fabs(f.bath_c - NW_BATH) < 4.0 * f.u_bath_c,
+            "bath %.6f u %.2g", f.bath_c, f.u_bath_c);
+  cr_assert(fabs(f.tau_s - NW_TAU) < 4.0 * f.u_tau_s, "tau %.4f u %.2g",
+            f.tau_s, f.u_tau_s);
+  /* residual rms of the readings: the noise (and the quantisation) */
+  cr_assert(fabs(f.rms_k - NW_SIGMA) < 0.1 * NW_SIGMA, "rms %.5f", f.rms_k);
+  reference_fit(t, y, n, &rb, &rt);
+  cr_assert(fabs(f.bath_c - rb) < 0.05 * f.u_bath_c,
+            "bath %.8f, every reading %.8f (u %.2g)", f.bath_c, rb,
+            f.u_bath_c);
+  cr_assert(fabs(f.tau_s - rt) < 0.05 * f.u_tau_s,
+            "tau %.6f, every reading %.6f (u %.2g)", f.tau_s, rt, f.u_tau_s);
+  free(t);
+  free(y);
+}
+
+/* A sample held warm for two hours before it is cooled, on a clock at
+ * 2e6 s: the liquid fit must start where the cooling does. From the
+ * warmest point of the hold it took a flat stretch for part of an
+ * exponential and failed at its iteration cap (liquid_short). */
+Test(detect_speed, newton_after_a_long_warm_hold, .init = setup)
+{
+  const double t0 = 2e6, hold = 7200.0, tau = 500.0, bath = -8.0,
+               warm = 5.0, fp = -0.186, nucl = -1.5;
+  double tn = hold + tau * log((warm - bath) / (nucl - bath));
+  size_t n = (size_t)((tn + 1500.0) * 10.0);
+  double *t = malloc(n * sizeof *t), *y = malloc(n * sizeof *y);
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+  struct ff_event_list l = FF_EVENT_LIST_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  const struct ff_event *e;
+
+  cr_assert(t && y && r);
+  gsl_rng_set(r, 5);
+  for (size_t i = 0; i < n; i++) {
+    double s = (double)i * 0.1, v;
+    t[i] = t0 + s;
+    if (s < hold)
+      v = warm;
+    else if (s < tn)
+      v = bath + (warm - bath) * exp(-(s - hold) / tau);
+    else   /* recalescence with a 2 s probe lag, then a slow branch */
+      v = fp - 2e-5 * (s - tn) + (nucl - fp) * exp(-(s - tn) / 2.0);
+    y[i] = round((v + gsl_ran_gaussian(r, NW_SIGMA)) * 1e4) / 1e4;
+  }
+  cr_assert_eq(ff_detect_run(t, y, n, NULL, &l, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(l.n, 1, "%zu events", l.n);
+  e = &l.v[0];
+  cr_assert_eq(e->liquid.kind, 1, "flags %#x", e->flags);
+  cr_assert(!(e->flags & FF_FLAG_LIQUID_SHORT));
+  cr_assert(fabs(e->liquid.tau_s - tau) < 0.01 * tau, "tau %.3f",
+            e->liquid.tau_s);
+  cr_assert(fabs(e->liquid.bath_c - bath) < 0.05, "bath %.4f",
+            e->liquid.bath_c);
+  ff_event_list_release(&l);
+  gsl_rng_free(r);
+  free(t);
+  free(y);
 }
