@@ -84,9 +84,13 @@ static void expect_same_dataset(const char *what, const struct ff_dataset *a,
             x->rows_all_missing, y->rows_all_missing);
 }
 
+/* check_both(): the fast path made the dataset; the file was imported. */
+#define TOOK_FAST 1
+#define IMPORTED 2
+
 /*
  * Imports path both ways and checks the results are identical (datasets,
- * or status and diagnostic). Returns 1 when the fast path produced it.
+ * or status and diagnostic). Returns TOOK_FAST | IMPORTED as they apply.
  */
 static int check_both(const char *path, const struct ff_import_opts *base)
 {
@@ -120,7 +124,7 @@ static int check_both(const char *path, const struct ff_import_opts *base)
   }
   ff_dataset_free(a);
   ff_dataset_free(b);
-  return took;
+  return (took ? TOOK_FAST : 0) | (b != NULL ? IMPORTED : 0);
 }
 
 static size_t check_glob(const char *pattern, size_t *n_files)
@@ -131,7 +135,7 @@ static size_t check_glob(const char *pattern, size_t *n_files)
   if (glob(pattern, 0, NULL, &g) != 0)
     return 0;
   for (size_t i = 0; i < g.gl_pathc; i++) {
-    fast += (size_t)check_both(g.gl_pathv[i], NULL);
+    fast += (check_both(g.gl_pathv[i], NULL) & TOOK_FAST) != 0;
     (*n_files)++;
   }
   globfree(&g);
@@ -360,6 +364,7 @@ Test(import_fast, random_small_files_with_random_seams,
 {
   char path[128];
   size_t fast = 0, total = 300;
+  int r;
 
   rng_state = 0x9E3779B97F4A7C15ULL;
   for (size_t i = 0; i < total; i++) {
@@ -368,8 +373,12 @@ Test(import_fast, random_small_files_with_random_seams,
     snprintf(path, sizeof path, "%s/r%zu.csv", tmpdir, i);
     write_random(path, &g);
     /* seams anywhere: chunks of 1 byte up to more than the file */
-    ff_import_fast_tune(1 + pick(3000), 80 + pick(4000));
-    fast += (size_t)check_both(path, NULL);
+    ff_import_fast_tune(1 + pick(3000), 200 + pick(4000));
+    r = check_both(path, NULL);
+    fast += (r & TOOK_FAST) != 0;
+    /* a good file (lines under 200 bytes) must go the fast way */
+    cr_assert(g.bad || !(r & IMPORTED) || (r & TOOK_FAST),
+              "%s: the fast path declined a plain file", path);
   }
   ff_import_fast_tune(0, 0);
   cr_expect_gt(fast, total / 3, "the fast path took %zu of %zu", fast, total);
@@ -380,6 +389,7 @@ Test(import_fast, random_large_files_read_in_chunks,
 {
   char path[128];
   size_t fast = 0;
+  int r;
 
   rng_state = 0xD1B54A32D192ED03ULL;
   /* beyond the 256 KiB sample, so the chunks are read with pread */
@@ -391,7 +401,10 @@ Test(import_fast, random_large_files_read_in_chunks,
     write_random(path, &g);
     ff_import_fast_tune(i % 2 ? 0 : 65536 + pick(200000),
                         i % 2 ? 0 : 4096 + pick(60000));
-    fast += (size_t)check_both(path, NULL);
+    r = check_both(path, NULL);
+    fast += (r & TOOK_FAST) != 0;
+    cr_assert(g.bad || !(r & IMPORTED) || (r & TOOK_FAST),
+              "%s: the fast path declined a plain file", path);
   }
   ff_import_fast_tune(0, 0);
   cr_expect_gt(fast, 3, "the fast path took %zu of 8", fast);
@@ -415,10 +428,10 @@ Test(import_fast, options_sentinels_and_units_same_both_ways,
   o.n_sentinels = 2;
   o.unit = FF_UNIT_K;
   ff_import_fast_tune(500, 2000);
-  check_both(path, &o);
+  cr_expect_eq(check_both(path, &o), TOOK_FAST | IMPORTED);
   o.time_column = "1";
   o.unit = FF_UNIT_UNKNOWN;
-  check_both(path, &o);
+  cr_expect_eq(check_both(path, &o), TOOK_FAST | IMPORTED);
 }
 
 /* ------------------------------------------------- the number shortcut */
