@@ -1040,6 +1040,72 @@ static double slide_min_at(struct slide_min *s, size_t lo)
   return s->head < s->tail ? s->qv[s->head] : NAN;  /* NaN: scan */
 }
 
+/*
+ * A lower bound of the window's minimum, cheap to keep: the minima of
+ * blocks of BMIN_BLOCK readings from a start, and of the block being
+ * filled. The blocks that meet [lo, j] cover it, so their smallest minimum
+ * is at most the window's; when even it leaves the reading at j less than
+ * a rise above, so does the window's minimum, and the exact test is
+ * skipped. Most readings are settled this way.
+ */
+#define BMIN_BLOCK 32
+struct block_min {
+  double *bm;                  /* bm[b - b0]: minimum of block b, filled */
+  size_t cap, b0, cur_b;       /* first block; the block being filled */
+  double cur;                  /* minimum of block cur_b so far */
+  size_t lo_b, upto_b;         /* cached: min of blocks [lo_b, upto_b) */
+  double cached;
+};
+
+static void bmin_reset(struct block_min *s, size_t start)
+{
+  s->b0 = s->cur_b = start / BMIN_BLOCK;
+  s->cur = INFINITY;
+  s->lo_b = s->upto_b = SIZE_MAX;
+}
+
+/* Adds reading j (value v): j one past the previous, or the start. */
+static int bmin_add(struct block_min *s, size_t j, double v)
+{
+  size_t b = j / BMIN_BLOCK;
+
+  if (b != s->cur_b) {
+    size_t at = s->cur_b - s->b0;
+    if (at >= s->cap) {
+      size_t cap = s->cap ? 2 * s->cap : 256;
+      double *bm = realloc(s->bm, cap * sizeof *bm);
+      if (bm == NULL)
+        return -1;
+      s->bm = bm;
+      s->cap = cap;
+    }
+    s->bm[at] = s->cur;
+    s->cur_b = b;
+    s->cur = INFINITY;
+  }
+  if (v < s->cur)
+    s->cur = v;
+  return 0;
+}
+
+/* At most the minimum of the readings [lo, j] added since the start
+ * (lo >= start). */
+static double bmin_lower(struct block_min *s, size_t lo)
+{
+  size_t lb = lo / BMIN_BLOCK;
+
+  if (lb != s->lo_b || s->cur_b != s->upto_b) {
+    double m = INFINITY;
+    for (size_t b = lb; b < s->cur_b; b++)
+      if (s->bm[b - s->b0] < m)
+        m = s->bm[b - s->b0];
+    s->cached = m;
+    s->lo_b = lb;
+    s->upto_b = s->cur_b;
+  }
+  return s->cached < s->cur ? s->cached : s->cur;
+}
+
 static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
                              size_t *pk)
 {
@@ -1047,20 +1113,34 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
   double rise = rise_threshold(c);
   size_t lo = from;
   struct slide_min sm = { .next = from };
+  struct block_min bmn = { 0 };
   int found = 0, scan = c->ys_nan;
 
+  bmin_reset(&bmn, from);
   for (size_t j = from; j < c->n; j++) {
     size_t mi = j;
     while (c->t[j] - c->t[lo] > p->max_rise_s)
       lo++;
     /* Without NaN (a sum that overflowed in the smoothing) the window's
      * minimum value decides; the scan below picks the same index as
-     * always. */
+     * always. The block bound settles most readings first; the exact
+     * window minimum then needs only the readings from lo. */
     if (!scan) {
-      if (slide_add(&sm, c, j) != 0)
+      double yj = dd_ys(c, j);
+      if (bmin_add(&bmn, j, yj) != 0) {
         scan = 1;              /* out of memory: fall back to the scan */
-      else if (dd_ys(c, j) - slide_min_at(&sm, lo) < rise)
+      } else if (yj - bmin_lower(&bmn, lo) < rise) {
         continue;
+      } else {
+        if (sm.next < lo) {
+          sm.head = sm.tail = 0;
+          sm.next = lo;
+        }
+        if (slide_add(&sm, c, j) != 0)
+          scan = 1;
+        else if (yj - slide_min_at(&sm, lo) < rise)
+          continue;
+      }
     }
     {
       double ymi = dd_ys(c, mi);
@@ -1112,6 +1192,9 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
         lo = top;
         sm.head = sm.tail = 0;
         sm.next = top;
+        bmin_reset(&bmn, top);
+        if (!scan && bmin_add(&bmn, top, dd_ys(c, top)) != 0)
+          scan = 1;
         continue;
       }
       for (k = j; k < top; k++)
@@ -1125,6 +1208,7 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
   }
   free(sm.q);
   free(sm.qv);
+  free(bmn.bm);
   return found;
 }
 
