@@ -88,6 +88,7 @@ struct fast {
   /* for the time shift after compaction */
   size_t n;
   double t0;
+  size_t first_slot;           /* slot of the first kept row */
 };
 
 /* Reads n bytes at off from the file (or the in-memory sample). */
@@ -325,6 +326,24 @@ static int cell_value(const struct ff_fast_in *in, const char *s, size_t n,
   return -1;
 }
 
+/* A date-time cell, as read_time() reads one: a marker, or ISO 8601 with
+ * a time of day. */
+static int iso_cell(const struct ff_fast_in *in, const char *s, size_t n,
+                    double *v, int *how)
+{
+  int date_only = 0;
+
+  if (ff_import_is_missing_text(s, n)) {
+    *how = CELL_MISSING;
+    return 0;
+  }
+  if (ff_import_parse_iso(s, n, in->decimal, v, &date_only) != 0
+      || date_only)
+    return -1;
+  *how = CELL_VALUE;
+  return 0;
+}
+
 static double temp_value(const struct ff_fast_in *in, double v,
                          enum ff_temp_unit u)
 {
@@ -383,7 +402,12 @@ static const char *parse_line(struct worker *w, const char *p)
   for (;; f++) {
     const char *e;
     int slot_k = f < ncol ? fs->cell_of[f] : -1;
-    if (slot_k >= 0) {
+    if (slot_k == 0 && in->iso) {
+      e = field_end(q, delim);
+      if (e == NULL || iso_cell(in, q, (size_t)(e - q), &w->val[0],
+                                &w->how[0]) != 0)
+        return NULL;
+    } else if (slot_k >= 0) {
       e = scan_digits(q, dec, &w->dg[slot_k]);
       if (e != NULL && (*e == delim || *e == '\n'
                         || (*e == '\r' && e[1] == '\n'))) {
@@ -610,6 +634,8 @@ static void compact(struct fast *fs, struct ff_dataset *ds,
     if (c->holes == 0 && c->all_missing == 0 && c->increasing
         && (n == 0 || c->first_t > last)) {
       /* the common case: every line a kept row */
+      if (n == 0)
+        fs->first_slot = c->base;
       if (c->base != n) {
         memmove(fs->t + n, fs->t + c->base, c->lines * sizeof *fs->t);
         for (size_t k = 0; k < nch; k++)
@@ -650,6 +676,8 @@ static void compact(struct fast *fs, struct ff_dataset *ds,
         st->rows_all_missing++;
         continue;
       }
+      if (n == 0)
+        fs->first_slot = s;
       if (s != n)
         move_row(fs, s, n);
       for (size_t k = 0; k < nch; k++) {
@@ -667,6 +695,74 @@ static void compact(struct fast *fs, struct ff_dataset *ds,
     }
   }
   fs->n = n;
+}
+
+/*
+ * The time cell of the line in slot s as libcsv hands it over (blanks
+ * around dropped), at most cap - 1 bytes: the first kept row's date-time
+ * for t0_iso. Returns 0, or -1 when it cannot be read again.
+ */
+static int time_text(const struct fast *fs, size_t s, char *dst, size_t cap)
+{
+  const struct ff_fast_in *in = fs->in;
+  const struct chunk *c = NULL;
+  size_t bs = block_size(), off, skip;
+  char *buf;
+  int res = -1;
+
+  for (size_t i = 0; i < fs->n_chunks && c == NULL; i++)
+    if (fs->ck[i].lines > 0 && s >= fs->ck[i].base
+        && s < fs->ck[i].base + fs->ck[i].lines)
+      c = &fs->ck[i];
+  if (c == NULL || (buf = malloc(bs)) == NULL)
+    return -1;
+  off = c->start;
+  skip = s - c->base;
+  while (off < c->end) {
+    size_t n = c->end - off < bs ? c->end - off : bs;
+    const char *p, *e, *nl;
+    if (read_at(fs, buf, n, off) != 0)
+      break;
+    p = buf;
+    e = buf + n;
+    while (skip > 0 && (nl = memchr(p, '\n', (size_t)(e - p))) != NULL) {
+      p = nl + 1;
+      skip--;
+    }
+    if (skip > 0) {
+      off += n;
+      continue;
+    }
+    if (memchr(p, '\n', (size_t)(e - p)) == NULL && off + n < c->end) {
+      if (p == buf)
+        break;                       /* cannot happen: lines fit a block */
+      off += (size_t)(p - buf);      /* read the line again from its start */
+      continue;
+    }
+    for (size_t f = 0; f < in->time_col; f++) {
+      while (p < e && *p != in->delimiter && *p != '\n')
+        p++;
+      if (p < e && *p == in->delimiter)
+        p++;
+    }
+    {
+      const char *a = p, *b = p;
+      size_t k;
+      while (b < e && *b != in->delimiter && *b != '\n' && *b != '\r')
+        b++;
+      while (a < b && (*a == ' ' || *a == '\t'))
+        a++;
+      while (b > a && (b[-1] == ' ' || b[-1] == '\t'))
+        b--;
+      k = (size_t)(b - a) < cap - 1 ? (size_t)(b - a) : cap - 1;
+      memcpy(dst, a, k);
+      dst[k] = '\0';
+      res = 0;
+    }
+    break;
+  }
+  free(buf);
+  return res;
 }
 
 static void free_slots(struct fast *fs)
@@ -690,6 +786,7 @@ static int decline(struct fast *fs, struct ff_dataset *ds)
   free(fs->c_hi);
   memset(&ds->stats, 0, sizeof ds->stats);
   ds->dialect.comment_lines = 0;
+  ds->t0_iso[0] = '\0';
   ds->n = 0;
   for (size_t k = 0; k < ds->n_channels; k++) {
     ds->ch[k].n_missing = 0;
@@ -790,6 +887,9 @@ int ff_import_fast(const struct ff_fast_in *in, struct ff_dataset *ds)
     with_values += ds->ch[k].n_missing < fs.n;
   if (fs.n == 0 || with_values == 0)
     return decline(&fs, ds);         /* the general reader explains */
+  if (in->iso && time_text(&fs, fs.first_slot, ds->t0_iso,
+                           sizeof ds->t0_iso) != 0)
+    return decline(&fs, ds);
   fs.t0 = fs.t[0];
   ff_parallel_for(fs.n_chunks, shift_part, &fs);
 

@@ -95,6 +95,7 @@ struct ff_fast_in {
   const long *chan;                /* per column: channel index or -1 */
   const enum ff_temp_unit *units;  /* per channel: unit in the file */
   double time_scale;               /* numeric time to seconds */
+  int iso;                         /* 1: ISO 8601 date-times */
   char delimiter, decimal;
   const double *sentinels;
   size_t n_sentinels;
@@ -105,8 +106,8 @@ struct ff_fast_in {
 };
 
 /*
- * The fast path for plain numeric tables (single-byte delimiter, no
- * quotes, numeric time): parses the data region in parallel chunks into
+ * The fast path for plain tables (single-byte delimiter, no quotes,
+ * numeric or ISO 8601 time): parses the data region in parallel chunks into
  * ds (which new_dataset() in import.c prepared: columns and channels
  * set, no rows) and does what the general reader's end does (times from
  * the first kept row, ranges, counters). Returns FF_OK, or

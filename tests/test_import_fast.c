@@ -222,9 +222,10 @@ struct gen {
   char delim, dec;
   const char *eol;
   int unit;              /* 0 C, 1 K, 2 F */
-  int time_unit;         /* 0 s, 1 min, 2 h */
+  int time_unit;         /* 0 s, 1 min, 2 h, 3 ISO 8601 date-time */
   unsigned n_temp;
   unsigned rows;
+  unsigned iso_shape;    /* ' ' or 'T', fraction, offset: bits 0..2 */
   int quirks;            /* 0: clean rows only */
   int bad;               /* 1: maybe one bad cell somewhere */
 };
@@ -271,15 +272,32 @@ static void put_temp_cell(FILE *f, const struct gen *g, double x)
   put_number(f, x, 1 + (int)pick(5), g->dec);
 }
 
+/* t seconds after 2026-01-15 00:00 as an ISO 8601 stamp, in one of the
+ * shapes loggers write. */
+static void put_iso(FILE *f, double t, unsigned shape)
+{
+  long s = (long)floor(t);
+  double frac = t - (double)s;
+
+  fprintf(f, "2026-01-%02ld%c%02ld:%02ld:%02ld", 15 + s / 86400,
+          shape & 1 ? ' ' : 'T', s % 86400 / 3600, s % 3600 / 60, s % 60);
+  if (shape & 2)
+    fprintf(f, ".%03d", (int)(frac * 1000.0));
+  if (shape & 4)
+    fputs("+01:00", f);
+}
+
 static void write_random(const char *path, const struct gen *g)
 {
-  static const char *const tu[] = { "time (s)", "time (min)", "time (h)" };
+  static const char *const tu[] = { "time (s)", "time (min)", "time (h)",
+                                    "timestamp" };
   static const char *const uu[] = { "C", "K", "F" };
   FILE *f = fopen(path, "wb");
   double t = (double)pick(1000) / 10.0, step;
 
   cr_assert_not_null(f, "%s: %s", path, strerror(errno));
-  step = g->time_unit == 0 ? 0.5 : g->time_unit == 1 ? 0.01 : 0.001;
+  step = g->time_unit == 0 ? 0.5 : g->time_unit == 1 ? 0.01
+         : g->time_unit == 2 ? 0.001 : 0.25;
   if (chance(3))
     fprintf(f, "# synthetic logger export%s", g->eol);
   fputs(tu[g->time_unit], f);
@@ -300,6 +318,8 @@ static void write_random(const char *path, const struct gen *g)
       t -= step * (double)pick(3);      /* duplicate or backwards */
     if (g->quirks && chance(70))
       fputs(chance(2) ? "" : "NaN", f); /* no time */
+    else if (g->time_unit == 3)
+      put_iso(f, t, g->iso_shape);
     else
       put_number(f, t, g->time_unit == 0 ? 1 : 3, g->dec);
     for (unsigned k = 0; k < g->n_temp; k++) {
@@ -330,7 +350,8 @@ static void random_gen(struct gen *g, unsigned rows)
   }
   g->eol = chance(3) ? "\r\n" : "\n";
   g->unit = (int)pick(3);
-  g->time_unit = (int)pick(3);
+  g->time_unit = (int)pick(4);
+  g->iso_shape = pick(8);
   g->n_temp = 1 + pick(4);
   g->rows = rows;
   g->quirks = !chance(3);
