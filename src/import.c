@@ -453,7 +453,8 @@ static int try_fast(struct reader *r, FILE *f, const char *buf, size_t len,
   if (f == stdin || r->ws || (r->tf != FF_TIME_SECONDS
                               && r->tf != FF_TIME_MINUTES
                               && r->tf != FF_TIME_HOURS
-                              && r->tf != FF_TIME_ISO8601))
+                              && r->tf != FF_TIME_ISO8601
+                              && r->tf != FF_TIME_CLOCK))
     return FF_FAST_DECLINED;
   memset(&in, 0, sizeof in);
   if (eof) {
@@ -481,6 +482,7 @@ static int try_fast(struct reader *r, FILE *f, const char *buf, size_t len,
   in.units = units;
   in.time_scale = r->time_scale;
   in.iso = r->tf == FF_TIME_ISO8601;
+  in.clock = r->tf == FF_TIME_CLOCK;
   in.delimiter = ds->dialect.delimiter;
   in.decimal = r->decimal;
   in.sentinels = r->o->sentinels;

@@ -89,6 +89,7 @@ struct fast {
   size_t n;
   double t0;
   size_t first_slot;           /* slot of the first kept row */
+  unsigned char *parts;        /* clock times: 2 mm:ss, 3 time of day */
 };
 
 /* Reads n bytes at off from the file (or the in-memory sample). */
@@ -344,6 +345,22 @@ static int iso_cell(const struct ff_fast_in *in, const char *s, size_t n,
   return 0;
 }
 
+/* A clock cell, as read_time() reads one: a marker, mm:ss or a time of
+ * day (*parts 2 or 3; the midnight wraps are counted afterwards). */
+static int clock_cell(const struct ff_fast_in *in, const char *s, size_t n,
+                      double *v, int *how, int *parts)
+{
+  if (ff_import_is_missing_text(s, n)) {
+    *how = CELL_MISSING;
+    return 0;
+  }
+  *parts = ff_import_parse_clock(s, n, in->decimal, v);
+  if (*parts < 0)
+    return -1;
+  *how = CELL_VALUE;
+  return 0;
+}
+
 static double temp_value(const struct ff_fast_in *in, double v,
                          enum ff_temp_unit u)
 {
@@ -367,7 +384,7 @@ static const char *parse_line(struct worker *w, const char *p)
   const char *q = p;
   size_t slot = w->slot, f = 0, present = 0;
   double t = NAN;
-  int t_missing = 0;
+  int t_missing = 0, parts = 0;
 
   if (slot >= w->last_slot)
     return NULL;
@@ -402,7 +419,12 @@ static const char *parse_line(struct worker *w, const char *p)
   for (;; f++) {
     const char *e;
     int slot_k = f < ncol ? fs->cell_of[f] : -1;
-    if (slot_k == 0 && in->iso) {
+    if (slot_k == 0 && in->clock) {
+      e = field_end(q, delim);
+      if (e == NULL || clock_cell(in, q, (size_t)(e - q), &w->val[0],
+                                  &w->how[0], &parts) != 0)
+        return NULL;
+    } else if (slot_k == 0 && in->iso) {
       e = field_end(q, delim);
       if (e == NULL || iso_cell(in, q, (size_t)(e - q), &w->val[0],
                                 &w->how[0]) != 0)
@@ -449,6 +471,8 @@ static const char *parse_line(struct worker *w, const char *p)
     w->row[k] = w->how[k + 1] == CELL_MISSING ? NAN
                 : temp_value(in, w->val[k + 1], in->units[k]);
   fs->t[slot] = t;
+  if (fs->parts != NULL)
+    fs->parts[slot] = (unsigned char)parts;
   if (c->have_t && !(t > c->last_t))
     c->increasing = 0;
   if (!c->have_t) {
@@ -595,6 +619,35 @@ static void chunk_done(void *ctx, size_t done, size_t total)
   if (done < total)
     d = (unsigned long long)((double)pm->size * (double)done / (double)total);
   pm->in->progress(pm->in->progress_ctx, d, (unsigned long long)pm->size);
+}
+
+/*
+ * Clock times of day that pass midnight, in file order as read_time()
+ * counts them (every row with a time, kept or not): the next day's times
+ * get 86400 s more. The chunks' own order checks no longer hold after
+ * this, so compact() looks at every row.
+ */
+static void midnight(struct fast *fs, size_t slots, struct ff_dataset *ds)
+{
+  double day_off = 0.0, prev = 0.0;
+  int have_prev = 0;
+
+  for (size_t s = 0; s < slots; s++) {
+    double v = fs->t[s];
+    if (isnan(v) || fs->parts[s] != 3)
+      continue;
+    v += day_off;
+    if (have_prev && v < prev - 43200.0) {
+      day_off += 86400.0;
+      v += 86400.0;
+      ds->stats.midnight_wraps++;
+    }
+    prev = v;
+    have_prev = 1;
+    fs->t[s] = v;
+  }
+  for (size_t i = 0; i < fs->n_chunks; i++)
+    fs->ck[i].increasing = 0;
 }
 
 /* Moves slot s to row n. */
@@ -767,6 +820,8 @@ static int time_text(const struct fast *fs, size_t s, char *dst, size_t cap)
 
 static void free_slots(struct fast *fs)
 {
+  free(fs->parts);
+  fs->parts = NULL;
   free(fs->t);
   fs->t = NULL;
   for (size_t k = 0; fs->v != NULL && k < fs->nch; k++)
@@ -864,7 +919,9 @@ int ff_import_fast(const struct ff_fast_in *in, struct ff_dataset *ds)
   }
   fs.t = malloc(slots * sizeof *fs.t);
   fs.v = calloc(fs.nch, sizeof *fs.v);
-  if (fs.t == NULL || fs.v == NULL)
+  if (in->clock)
+    fs.parts = malloc(slots);
+  if (fs.t == NULL || fs.v == NULL || (in->clock && fs.parts == NULL))
     return decline(&fs, ds);
   for (size_t k = 0; k < fs.nch; k++) {
     fs.v[k] = malloc(slots * sizeof *fs.v[k]);
@@ -882,6 +939,8 @@ int ff_import_fast(const struct ff_fast_in *in, struct ff_dataset *ds)
   if (atomic_load(&fs.abandon))
     return decline(&fs, ds);
 
+  if (in->clock)
+    midnight(&fs, slots, ds);
   compact(&fs, ds, ds->dialect.first_data_line);
   for (size_t k = 0; k < fs.nch; k++)
     with_values += ds->ch[k].n_missing < fs.n;
@@ -915,6 +974,7 @@ int ff_import_fast(const struct ff_fast_in *in, struct ff_dataset *ds)
       ch->min_c = ch->max_c = NAN;
   }
   free(fs.v);
+  free(fs.parts);
   free(fs.ck);
   free(fs.cell_of);
   free(fs.c_missing);

@@ -96,6 +96,7 @@ struct ff_fast_in {
   const enum ff_temp_unit *units;  /* per channel: unit in the file */
   double time_scale;               /* numeric time to seconds */
   int iso;                         /* 1: ISO 8601 date-times */
+  int clock;                       /* 1: clock times (mm:ss, hh:mm:ss) */
   char delimiter, decimal;
   const double *sentinels;
   size_t n_sentinels;
@@ -107,9 +108,9 @@ struct ff_fast_in {
 
 /*
  * The fast path for plain tables (single-byte delimiter, no quotes,
- * numeric or ISO 8601 time): parses the data region in parallel chunks into
- * ds (which new_dataset() in import.c prepared: columns and channels
- * set, no rows) and does what the general reader's end does (times from
+ * numeric, clock or ISO 8601 time): parses the data region in parallel
+ * chunks into ds (which new_dataset() in import.c prepared: columns and
+ * channels set, no rows) and does what the general reader's end does (times from
  * the first kept row, ranges, counters). Returns FF_OK, or
  * FF_FAST_DECLINED with ds as it came when the file holds anything the
  * general reader must judge (quotes, bad cells, ragged rows, lone CR line

@@ -222,7 +222,8 @@ struct gen {
   char delim, dec;
   const char *eol;
   int unit;              /* 0 C, 1 K, 2 F */
-  int time_unit;         /* 0 s, 1 min, 2 h, 3 ISO 8601 date-time */
+  int time_unit;         /* 0 s, 1 min, 2 h, 3 ISO 8601 date-time,
+                            4 clock time of day, 5 clock mm:ss */
   unsigned n_temp;
   unsigned rows;
   unsigned iso_shape;    /* ' ' or 'T', fraction, offset: bits 0..2 */
@@ -290,14 +291,16 @@ static void put_iso(FILE *f, double t, unsigned shape)
 static void write_random(const char *path, const struct gen *g)
 {
   static const char *const tu[] = { "time (s)", "time (min)", "time (h)",
-                                    "timestamp" };
+                                    "timestamp", "Time", "Time" };
   static const char *const uu[] = { "C", "K", "F" };
   FILE *f = fopen(path, "wb");
   double t = (double)pick(1000) / 10.0, step;
 
   cr_assert_not_null(f, "%s: %s", path, strerror(errno));
   step = g->time_unit == 0 ? 0.5 : g->time_unit == 1 ? 0.01
-         : g->time_unit == 2 ? 0.001 : 0.25;
+         : g->time_unit == 2 ? 0.001 : g->time_unit == 3 ? 0.25 : 1.0;
+  if (g->time_unit == 4)
+    t = 86400.0 - (double)pick(400);    /* passes midnight */
   if (chance(3))
     fprintf(f, "# synthetic logger export%s", g->eol);
   fputs(tu[g->time_unit], f);
@@ -320,6 +323,11 @@ static void write_random(const char *path, const struct gen *g)
       fputs(chance(2) ? "" : "NaN", f); /* no time */
     else if (g->time_unit == 3)
       put_iso(f, t, g->iso_shape);
+    else if (g->time_unit == 4)
+      fprintf(f, "%02ld:%02ld:%02ld", (long)t % 86400 / 3600,
+              (long)t % 3600 / 60, (long)t % 60);
+    else if (g->time_unit == 5)
+      fprintf(f, "%02ld:%02ld", (long)t / 60, (long)t % 60);
     else
       put_number(f, t, g->time_unit == 0 ? 1 : 3, g->dec);
     for (unsigned k = 0; k < g->n_temp; k++) {
@@ -350,7 +358,7 @@ static void random_gen(struct gen *g, unsigned rows)
   }
   g->eol = chance(3) ? "\r\n" : "\n";
   g->unit = (int)pick(3);
-  g->time_unit = (int)pick(4);
+  g->time_unit = (int)pick(6);
   g->iso_shape = pick(8);
   g->n_temp = 1 + pick(4);
   g->rows = rows;
