@@ -4,6 +4,7 @@
 #include "frostfit/detect.h"
 #include "detect_impl.h"
 
+#include <float.h>
 #include <math.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -174,6 +175,23 @@ size_t dd_index_at(const struct dctx *c, double t_s)
 static int check_input(const double *t, const double *y, size_t n,
                        struct ff_diag *d)
 {
+  /* One pass without a branch that asks whether all is well (a double is
+   * infinite or NaN when its exponent bits are all set); the loop below
+   * finds the first bad reading only when it is not. */
+  const uint64_t e = 0x7ff0000000000000u;
+  uint64_t bad = 0;
+  int ok = 1;
+
+  for (size_t i = 0; i < n; i++) {
+    uint64_t a, b;
+    memcpy(&a, &t[i], sizeof a);
+    memcpy(&b, &y[i], sizeof b);
+    bad |= ((a & e) == e) | ((b & e) == e);
+  }
+  for (size_t i = 1; i < n; i++)
+    ok &= t[i] > t[i - 1];
+  if (ok && !bad)
+    return FF_OK;
   for (size_t i = 0; i < n; i++) {
     if (!isfinite(t[i]) || !isfinite(y[i]))
       return ff_diag_set(d, FF_EINPUT, NULL, "reading %zu is not a finite "
@@ -210,10 +228,12 @@ static double quantum(const struct dctx *c, double step, size_t zeros)
     return 0.0;
   if (zeros > c->n / 5)
     return step;
+  /* Times the reciprocal rather than divided by step: a rounding of q
+   * apart, which moves a change only across the 0.01 limit, never by it. */
+  double inv = 1.0 / step;
   for (size_t i = 1; i < c->n; i++) {
-    double q = fabs(c->y[i] - c->y[i - 1]) / step;
-    if (fabs(q - near_int(q)) > 0.01)
-      bad++;
+    double q = fabs(c->y[i] - c->y[i - 1]) * inv;
+    bad += fabs(q - near_int(q)) > 0.01;
   }
   return bad <= c->n / 100 ? step : 0.0;
 }
@@ -272,15 +292,18 @@ static int estimate_noise(struct dctx *c)
   /* Second differences of finite readings may overflow to +inf but are
    * never NaN; a NaN would take the copy. The same pass finds the smallest
    * change and counts the repeats (for quantum()). */
+  c->ymax = fabs(c->y[0]);
   for (size_t i = 1; i < n; i++) {
-    double s = fabs(c->y[i] - c->y[i - 1]);
-    if (!(s > 0.0))
-      zeros++;
-    else if (s < step)
-      step = s;
-    if (i + 1 < n && isnan(est_value(c, 0, i)))
-      plain = 0;
+    double s = fabs(c->y[i] - c->y[i - 1]), a = fabs(c->y[i]);
+    zeros += !(s > 0.0);
+    step = s > 0.0 && s < step ? s : step;
+    c->ymax = a > c->ymax ? a : c->ymax;   /* finite: fmax without a call */
   }
+  /* Only a reading beyond a quarter of the largest double can make one
+   * overflow (4 max|y| bounds it); look for NaN then only. */
+  if (!(c->ymax < 0.25 * DBL_MAX))
+    for (size_t i = 1; i + 1 < n; i++)
+      plain &= !isnan(est_value(c, 0, i));
   if (n > MEDIAN_COPY_MAX && plain) {
     cnt = malloc(DD_SEL_RADIX * sizeof *cnt);
     if (cnt == NULL)
@@ -414,7 +437,7 @@ double dd_ys_fill(const struct dctx *c, size_t i)
 static int smooth(struct dctx *c)
 {
   size_t nb = (c->n + YS_BLOCK - 1) / YS_BLOCK;
-  double big = 0.0;
+  double big = c->ymax;        /* from estimate_noise */
 
   c->h = half_width(c);
   c->ysc = calloc(1, sizeof *c->ysc);
@@ -424,9 +447,6 @@ static int smooth(struct dctx *c)
   c->ysc->v = malloc((size_t)c->ysc->ways * YS_BLOCK * sizeof *c->ysc->v);
   if (c->ysc->v == NULL)
     return -1;
-  for (size_t i = 0; i < c->n; i++)
-    if (fabs(c->y[i]) > big)   /* finite readings: fmax without a call */
-      big = fabs(c->y[i]);
   if (!isfinite(big * (double)(2 * c->h + 2)))
     for (size_t i = 0; i < c->n && !c->ys_nan; i++)
       if (isnan(smooth_at(c, i)))
@@ -892,6 +912,15 @@ static int find_break(const struct dctx *c, size_t a, size_t b, size_t *at)
       double *from = PS(filled), *to = PS(filled + 1);
       for (int k = 0; k < 5; k++)
         to[k] = from[k] + add[k];
+    }
+    /* The slope before i falls only if its numerator is negative (sxx is
+     * positive or the slope is 0): most readings stop here, without the
+     * division. */
+    {
+      double n1 = PS(i)[1] - PS(i - w)[1], n0 = PS(i)[0] - PS(i - w)[0];
+      if (!(PS(i)[4] - PS(i - w)[4] - n1 * (PS(i)[3] - PS(i - w)[3]) / n0
+            < 0.0))
+        continue;
     }
     SLOPE(i - w, i, sb);
     if (!(sb < 0.0))

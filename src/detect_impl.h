@@ -33,6 +33,7 @@ struct dctx {
   double sigma;                /* noise sd of one reading, K */
   double res;                  /* resolution used, K (0 = none seen) */
   double dt;                   /* median sampling interval, s */
+  double ymax;                 /* largest |reading| */
   const struct ff_detect_params *p;
   double cpl, cps, lat;        /* J/(g K), J/(g K), J/g */
   double tf0;                  /* the solvent's tabulated freezing point, C */
