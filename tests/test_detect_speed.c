@@ -10,6 +10,7 @@
 #include <string.h>
 
 #include <gsl/gsl_errno.h>
+#include <gsl/gsl_fit.h>
 #include <gsl/gsl_multifit_nlinear.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
@@ -280,6 +281,100 @@ Test(detect_speed, newton_after_a_long_warm_hold, .init = setup)
   cr_assert(fabs(e->liquid.bath_c - bath) < 0.05, "bath %.4f",
             e->liquid.bath_c);
   ff_event_list_release(&l);
+  gsl_rng_free(r);
+  free(t);
+  free(y);
+}
+
+/* ---- the plateau search ------------------------------------------- */
+
+/* The plateau search as plain fits: the longest window from i0, in steps
+ * of n/40, whose drift is within the noise; its median, or NaN. */
+static double plain_plateau(const struct dctx *c, size_t i0, size_t i1)
+{
+  size_t n = i1 - i0, step = n / 40 > 1 ? n / 40 : 1, best = 0;
+  double *x = malloc(n * sizeof *x), v;
+
+  cr_assert(x != NULL);
+  for (size_t m = n; m >= 10; m = m > step ? m - step : 0) {
+    double c0, c1, c00, c01, c11, ss, span = c->t[i0 + m - 1] - c->t[i0];
+    for (size_t i = 0; i < m; i++)
+      x[i] = c->t[i0 + i] - c->t[i0];
+    if (gsl_fit_linear(x, 1, c->y + i0, 1, m, &c0, &c1, &c00, &c01, &c11,
+                       &ss) != GSL_SUCCESS)
+      continue;
+    if (fabs(c1) * span <= fmax(3.0 * sqrt(c11) * span,
+                                fmax(0.5 * c->res, 0.5 * c->sigma))) {
+      best = m;
+      break;
+    }
+  }
+  if (best == 0 || c->t[i0 + best - 1] - c->t[i0] < 0.5 * c->p->min_branch_s) {
+    free(x);
+    return NAN;
+  }
+  memcpy(x, c->y + i0, best * sizeof *x);
+  v = gsl_stats_median(x, 1, best);
+  free(x);
+  return v;
+}
+
+/* Branches from flat to clearly sloping, the drift near the limit among
+ * them, some quantised: the plateau found with the running-sum shortcut
+ * is the one the plain fits find, value for value. */
+Test(detect_speed, plateau_shortcut_finds_the_plain_plateau, .init = setup)
+{
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
+  size_t nmax = 4000, found = 0, refused = 0;
+  double *t = malloc(nmax * sizeof *t), *y = malloc(nmax * sizeof *y);
+
+  cr_assert(r && t && y);
+  for (int k = 0; k < 300; k++) {
+    size_t n = 100 + gsl_rng_uniform_int(r, nmax - 100);
+    double dt = k % 3 == 0 ? 0.1 : 1.0, sigma = 0.0005 + 0.005
+                * gsl_rng_uniform(r), res = k % 2 ? 1e-4 : 0.0;
+    /* slopes from none to a few times what the noise hides, with a bend */
+    double slope = -sigma / (dt * (double)n) * 20.0 * gsl_rng_uniform(r)
+                   * gsl_rng_uniform(r);
+    struct dctx c;
+    struct ff_event e;
+    double want;
+    for (size_t i = 0; i < n; i++) {
+      double s = (double)i * dt;
+      t[i] = 5e5 + s;
+      y[i] = -0.2 + slope * s - 0.5 * slope / ((double)n * dt) * s * s
+             + gsl_ran_gaussian(r, sigma);
+      if (res > 0.0)
+        y[i] = round(y[i] / res) * res;
+    }
+    memset(&c, 0, sizeof c);
+    memset(&e, 0, sizeof e);
+    c.t = t;
+    c.y = y;
+    c.n = n;
+    c.p = &p;
+    c.sigma = sigma;
+    c.res = res;
+    dd_plateau(&c, &e, 0, n);
+    want = plain_plateau(&c, 0, n);
+    if (isnan(want)) {
+      cr_assert(!e.est[FF_METHOD_PLATEAU].ok, "case %d: a plateau of %.6f "
+                "where the plain search finds none", k,
+                e.est[FF_METHOD_PLATEAU].value_c);
+      refused++;
+    } else {
+      cr_assert(e.est[FF_METHOD_PLATEAU].ok, "case %d: no plateau, the "
+                "plain search finds %.6f", k, want);
+      cr_assert(same_bits(e.est[FF_METHOD_PLATEAU].value_c, want),
+                "case %d: %.17g, plain %.17g", k,
+                e.est[FF_METHOD_PLATEAU].value_c, want);
+      found++;
+    }
+  }
+  /* both outcomes were exercised */
+  cr_assert(found > 30 && refused > 30, "found %zu refused %zu", found,
+            refused);
   gsl_rng_free(r);
   free(t);
   free(y);
