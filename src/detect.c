@@ -11,6 +11,9 @@
 #include <stdlib.h>
 #include <string.h>
 #include <strings.h>
+#ifdef __SSE2__
+#include <emmintrin.h>
+#endif
 
 /* Fewest points a channel must have to be analysed at all. */
 #define MIN_POINTS 20
@@ -376,8 +379,27 @@ static void smooth_block(const struct dctx *c, size_t i0, size_t i1,
     out[j - i0] = smooth_at(c, j);
   for (j = a; j + SMOOTH_LANES <= b; j += SMOOTH_LANES) {
     const double *y = c->y + (j - h);
+    double *o = out + (j - i0);
+#ifdef __SSE2__
+    /* Two neighbouring sums a register: lane l of y + q is reading
+     * j - h + q + l, the q-th term of sum l. IEEE addition lane by lane,
+     * so the same numbers as the scalar code below. */
+    __m128d s01 = _mm_setzero_pd(), s23 = _mm_setzero_pd(),
+            s45 = _mm_setzero_pd(), s67 = _mm_setzero_pd(),
+            w2 = _mm_set1_pd(wd);
+    for (size_t q = 0; q < wn; q++) {
+      s01 = _mm_add_pd(s01, _mm_loadu_pd(y + q));
+      s23 = _mm_add_pd(s23, _mm_loadu_pd(y + q + 2));
+      s45 = _mm_add_pd(s45, _mm_loadu_pd(y + q + 4));
+      s67 = _mm_add_pd(s67, _mm_loadu_pd(y + q + 6));
+    }
+    _mm_storeu_pd(o, _mm_div_pd(s01, w2));
+    _mm_storeu_pd(o + 2, _mm_div_pd(s23, w2));
+    _mm_storeu_pd(o + 4, _mm_div_pd(s45, w2));
+    _mm_storeu_pd(o + 6, _mm_div_pd(s67, w2));
+#else
     double s0 = 0.0, s1 = 0.0, s2 = 0.0, s3 = 0.0, s4 = 0.0, s5 = 0.0,
-           s6 = 0.0, s7 = 0.0, *o = out + (j - i0);
+           s6 = 0.0, s7 = 0.0;
     for (size_t q = 0; q < wn; q++) {
       s0 += y[q];
       s1 += y[q + 1];
@@ -396,6 +418,7 @@ static void smooth_block(const struct dctx *c, size_t i0, size_t i1,
     o[5] = s5 / wd;
     o[6] = s6 / wd;
     o[7] = s7 / wd;
+#endif
   }
   for (; j < i1; j++)
     out[j - i0] = smooth_at(c, j);
