@@ -513,14 +513,16 @@ static int parse_lines(struct worker *w, const char *s, size_t n)
 static void parse_chunk(void *ctx, size_t i)
 {
   struct fast *fs = ctx;
-  struct chunk *c = &fs->ck[i];
+  /* counters on this thread's stack, the chunk's neighbours in fs->ck
+   * being written by other threads: no cache line shared per row */
+  struct chunk local = fs->ck[i], *c = &local;
   struct worker w;
   size_t len = c->end - c->start, cap, carry = 0, off = c->start;
   size_t nch = fs->nch;
   char *buf;
   int ok = 1;
 
-  c->increasing = 1;
+  fs->ck[i].increasing = c->increasing = 1;
   if (c->lines == 0 || atomic_load(&fs->abandon))
     return;
   cap = len < block_size() ? len : block_size();
@@ -533,9 +535,11 @@ static void parse_chunk(void *ctx, size_t i)
   w.dg = malloc((nch + 1) * sizeof *w.dg);
   w.val = malloc((nch + 1) * sizeof *w.val);
   w.how = malloc((nch + 1) * sizeof *w.how);
-  w.missing = fs->c_missing + i * nch;
-  w.lo = fs->c_lo + i * nch;
-  w.hi = fs->c_hi + i * nch;
+  w.missing = malloc((nch ? nch : 1) * sizeof *w.missing);
+  w.lo = malloc((nch ? nch : 1) * sizeof *w.lo);
+  w.hi = malloc((nch ? nch : 1) * sizeof *w.hi);
+  if (w.missing == NULL || w.lo == NULL || w.hi == NULL)
+    nch = 0, ok = 0;
   for (size_t k = 0; k < nch; k++) {
     w.missing[k] = 0;
     w.lo[k] = INFINITY;
@@ -587,8 +591,17 @@ static void parse_chunk(void *ctx, size_t i)
   }
   if (ok && w.slot != w.last_slot)
     ok = 0;                          /* the file changed under us */
-  if (!ok)
+  if (!ok) {
     atomic_store(&fs->abandon, 1);
+  } else {
+    fs->ck[i] = local;
+    memcpy(fs->c_missing + i * nch, w.missing, nch * sizeof *w.missing);
+    memcpy(fs->c_lo + i * nch, w.lo, nch * sizeof *w.lo);
+    memcpy(fs->c_hi + i * nch, w.hi, nch * sizeof *w.hi);
+  }
+  free(w.missing);
+  free(w.lo);
+  free(w.hi);
   free(w.row);
   free(w.dg);
   free(w.val);
