@@ -190,9 +190,8 @@ static int check_input(const double *t, const double *y, size_t n,
     memcpy(&a, &t[i], sizeof a);
     memcpy(&b, &y[i], sizeof b);
     bad |= ((a & e) == e) | ((b & e) == e);
+    ok &= i == 0 || t[i] > t[i - 1];
   }
-  for (size_t i = 1; i < n; i++)
-    ok &= t[i] > t[i - 1];
   if (ok && !bad)
     return FF_OK;
   for (size_t i = 0; i < n; i++) {

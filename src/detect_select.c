@@ -57,8 +57,10 @@ static double radix_rank(const double *t, const double *y, int which,
   return val_of(prefix);
 }
 
-/* Values of the channel drawn at an even stride to bracket the ranks. */
+/* Values of the channel drawn to bracket the ranks: runs of SEL_RUN
+ * neighbours at even spacing (one cache miss a run, not a value). */
 #define SEL_SAMPLE 65536
+#define SEL_RUN 256
 
 /*
  * One pass that settles ranks r0 <= r1 when the values bracketed by keys
@@ -110,7 +112,7 @@ static int bracket_pass(const double *t, const double *y, int which,
 /*
  * The values of ranks r0 <= r1 among dd_sel_value(t, y, which, i), i in
  * [i0, i1), into v[0] and v[1], exactly. A sample of SEL_SAMPLE values at
- * an even stride brackets the ranks (its own quantiles, widened by four
+ * even spacing (runs of 256 neighbours) brackets the ranks (its own quantiles, widened by four
  * standard errors of a sample quantile and more); one pass over the
  * channel then counts what lies below the bracket and gathers what lies in
  * it (a few per cent of the values), and the ranks are selected among
@@ -122,7 +124,7 @@ static int bracket_pass(const double *t, const double *y, int which,
 int dd_select_pair(const double *t, const double *y, int which, size_t i0,
                    size_t i1, size_t r0, size_t r1, size_t *cnt, double v[2])
 {
-  size_t m = i1 > i0 ? i1 - i0 : 0, s, stride, klo, khi, cap;
+  size_t m = i1 > i0 ? i1 - i0 : 0, s, gap, klo, khi, cap;
   double *smp, p0, p1, d, flo, fhi;
   uint64_t blo, bhi;
   int st;
@@ -130,7 +132,7 @@ int dd_select_pair(const double *t, const double *y, int which, size_t i0,
   if (m == 0 || r0 > r1 || r1 >= m)
     return -1;
   s = m < SEL_SAMPLE ? m : SEL_SAMPLE;
-  stride = m / s;
+  gap = s < m ? m / (s / SEL_RUN) : 0;   /* >= SEL_RUN when s < m */
   p0 = (double)r0 / (double)m;
   p1 = (double)r1 / (double)m;
   d = 4.0 * sqrt(0.25 / (double)s) + 4.0 / (double)s;
@@ -142,7 +144,8 @@ int dd_select_pair(const double *t, const double *y, int which, size_t i0,
   if (smp == NULL)
     return -1;
   for (size_t k = 0; k < s; k++)
-    smp[k] = dd_sel_value(t, y, which, i0 + k * stride);
+    smp[k] = dd_sel_value(t, y, which, s == m ? i0 + k
+                          : i0 + k / SEL_RUN * gap + k % SEL_RUN);
   blo = key_of(gsl_stats_select(smp, 1, s, klo));
   bhi = key_of(gsl_stats_select(smp, 1, s, khi));
   free(smp);

@@ -94,9 +94,9 @@ Test(detect_speed, select_matches_sort_on_quantised_channels,
   gsl_rng_free(r);
 }
 
-/* Values with no ties, zeros, an overflow to +inf and a pattern that repeats
- * with the sampling stride: the sample then sees one phase only, the
- * bracket misses and the radix selection must give the value. */
+/* Values with no ties, zeros, an overflow to +inf, a spike every fourth
+ * reading and jittered times; the extreme ranks lie outside the sample's
+ * bracket, where the radix selection must give the value. */
 Test(detect_speed, select_exact_when_the_sample_misleads, .init = setup)
 {
   size_t n = 300000;
@@ -110,8 +110,8 @@ Test(detect_speed, select_exact_when_the_sample_misleads, .init = setup)
       if (pattern == 0)
         y[i] = gsl_ran_gaussian(r, 1.0);
       else
-        /* constant except every 4th reading: every second difference
-         * the even-stride sample meets is the spike's */
+        /* constant except every 4th reading: second differences of
+         * 0, a spike and twice a spike */
         y[i] = i % 4 == 0 ? 1.0 + 1e-3 * gsl_rng_uniform(r) : 0.0;
     }
     if (pattern == 0) {
