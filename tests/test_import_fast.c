@@ -173,6 +173,7 @@ Test(import_fast, fixtures_same_with_tiny_chunks_and_blocks)
   check_all_fixtures();
   ff_import_fast_tune(64, 1024);
   check_all_fixtures();
+  ff_import_fast_tune(0, 0);
 }
 
 Test(import_fast, environment_switch_forces_general_reader)
@@ -461,6 +462,7 @@ Test(import_fast, options_sentinels_and_units_same_both_ways,
   o.time_column = "1";
   o.unit = FF_UNIT_UNKNOWN;
   cr_expect_eq(check_both(path, &o), TOOK_FAST | IMPORTED);
+  ff_import_fast_tune(0, 0);
 }
 
 /* ------------------------------------------------- the number shortcut */
