@@ -307,7 +307,6 @@ struct worker {
   struct fast *fs;
   struct chunk *c;
   size_t slot, last_slot;      /* next slot to fill; one past the chunk's */
-  double *row;                 /* per channel, the row being read */
   struct digits *dg;           /* per cell: the shortcut's digits */
   double *val;                 /* per cell: the number read otherwise */
   int *how;                    /* per cell: CELL_* */
@@ -417,8 +416,8 @@ static const char *parse_line(struct worker *w, const char *p)
   }
   q = p;
   c->rows_read++;
-  for (size_t j = 0; j <= nch; j++)
-    w->how[j] = CELL_MISSING;
+  /* every cell's how[] is set below: the time and temperature columns
+   * come before min_fields, and a shorter row is refused */
   /* first the fields' text; the shortcut's numbers stay integers here so
    * that their divisions run back to back below */
   for (;; f++) {
@@ -472,9 +471,6 @@ static const char *parse_line(struct worker *w, const char *p)
     fs->t[slot] = NAN;
     return q;
   }
-  for (size_t k = 0; k < nch; k++)
-    w->row[k] = w->how[k + 1] == CELL_MISSING ? NAN
-                : temp_value(in, w->val[k + 1], in->units[k]);
   fs->t[slot] = t;
   if (fs->parts != NULL)
     fs->parts[slot] = (unsigned char)parts;
@@ -486,7 +482,8 @@ static const char *parse_line(struct worker *w, const char *p)
   }
   c->last_t = t;
   for (size_t k = 0; k < nch; k++) {
-    double y = w->row[k];
+    double y = w->how[k + 1] == CELL_MISSING ? NAN
+               : temp_value(in, w->val[k + 1], in->units[k]);
     fs->v[k][slot] = y;
     if (isnan(y)) {
       w->missing[k]++;
@@ -556,7 +553,6 @@ static void parse_chunk(void *ctx, size_t i)
   w.c = c;
   w.slot = c->base;
   w.last_slot = c->base + c->lines;
-  w.row = malloc((nch ? nch : 1) * sizeof *w.row);
   w.dg = malloc((nch + 1) * sizeof *w.dg);
   w.val = malloc((nch + 1) * sizeof *w.val);
   w.how = malloc((nch + 1) * sizeof *w.how);
@@ -570,7 +566,7 @@ static void parse_chunk(void *ctx, size_t i)
     w.lo[k] = INFINITY;
     w.hi[k] = -INFINITY;
   }
-  if (buf == NULL || w.row == NULL || w.dg == NULL || w.val == NULL
+  if (buf == NULL || w.dg == NULL || w.val == NULL
       || w.how == NULL)
     ok = 0;
   while (ok && !atomic_load(&fs->abandon)) {
@@ -627,7 +623,6 @@ static void parse_chunk(void *ctx, size_t i)
   free(w.missing);
   free(w.lo);
   free(w.hi);
-  free(w.row);
   free(w.dg);
   free(w.val);
   free(w.how);
