@@ -31,6 +31,10 @@ double ff_rg_coverage_factor(double conf, size_t dof, int estimated);
  */
 size_t ff_rg_distinct(const double *x, size_t n);
 
+/* min(ff_rg_distinct(x, n), cap), usually in one pass that stops early:
+ * for "at least cap distinct values" checks. */
+size_t ff_rg_distinct_upto(const double *x, size_t n, size_t cap);
+
 /*
  * Weighted linear least squares y = X par, X row-major n x p (p <=
  * FF_REGRESS_MAXPAR), weights 1/u^2 (u NULL: 1). On success fills par, the

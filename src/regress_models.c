@@ -265,7 +265,7 @@ static int need_points(struct ff_fit *f, const struct ff_regress_input *in,
   if (in->n <= np)
     return ff_rg_fail(f, d, "%zu points for %zu parameters: need at least "
                       "%zu for one degree of freedom", in->n, np, np + 1);
-  size_t k = ff_rg_distinct(in->m_mol_kg, in->n);
+  size_t k = ff_rg_distinct_upto(in->m_mol_kg, in->n, distinct_needed);
   if (k < distinct_needed)
     return ff_rg_fail(f, d, "runs at only %zu distinct molalit%s, need %zu",
                       k, k == 1 ? "y" : "ies", distinct_needed);

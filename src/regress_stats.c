@@ -122,6 +122,40 @@ size_t ff_rg_distinct(const double *x, size_t n)
   return k;
 }
 
+/*
+ * min(count, cap) without the sort in the usual case: scanning in order, a
+ * value beyond the range of the earlier ones and not the same as its
+ * nearest end is the same as none of them (the monotony above), so it
+ * counts; cap such values (the first always counts) settle the answer.
+ * Otherwise the full count decides.
+ */
+size_t ff_rg_distinct_upto(const double *x, size_t n, size_t cap)
+{
+  size_t proven = 0;
+  double lo = 0.0, hi = 0.0;
+
+  if (cap == 0)
+    return 0;
+  for (size_t i = 0; i < n; i++) {
+    if (!isfinite(x[i]))
+      break;
+    if (i == 0) {
+      lo = hi = x[0];
+      proven = 1;
+    } else if (x[i] > hi) {
+      proven += !same_value(x[i], hi);
+      hi = x[i];
+    } else if (x[i] < lo) {
+      proven += !same_value(x[i], lo);
+      lo = x[i];
+    }
+    if (proven >= cap)
+      return cap;
+  }
+  size_t k = ff_rg_distinct(x, n);
+  return k < cap ? k : cap;
+}
+
 int ff_rg_wlinear(const double *X, const double *y, const double *u, size_t n,
                   size_t p, double *par,
                   double cov[FF_REGRESS_MAXPAR][FF_REGRESS_MAXPAR],
@@ -348,7 +382,7 @@ int ff_regress_line(const double *x, const double *y, const double *u_y,
     return ff_diag_set(d, FF_EUNTRUSTED, NULL, "line fit: %zu points, need "
                        "at least 3 (two parameters and one degree of "
                        "freedom)", n);
-  if (ff_rg_distinct(x, n) < 2)
+  if (ff_rg_distinct_upto(x, n, 2) < 2)
     return ff_diag_set(d, FF_EUNTRUSTED, NULL, "line fit: all points at one "
                        "abscissa, the slope is undetermined");
 
@@ -458,7 +492,7 @@ static int mm_line(const double *c, const double *y, const double *u,
   }
   double w[2] = { 1.0 / (u[0] * u[0]), 1.0 / (u[1] * u[1]) };
   double a, b, c00, c01, c11, ss;
-  if (ff_rg_distinct(c, n) < 2 ||
+  if (ff_rg_distinct_upto(c, n, 2) < 2 ||
       gsl_fit_wlinear(c, 1, w, 1, y, 1, 2, &a, &b, &c00, &c01, &c11, &ss) !=
         GSL_SUCCESS || !isfinite(a) || !isfinite(c00)) {
     snprintf(why, nwhy, "two runs at one concentration: no extrapolation");
@@ -515,7 +549,7 @@ int ff_regress_molar_mass(const double *conc, const double *m_app_g_mol,
             "extrapolation");
     return FF_OK;
   }
-  if (ff_rg_distinct(conc, n) < 2)
+  if (ff_rg_distinct_upto(conc, n, 2) < 2)
     return ff_diag_set(d, FF_EUNTRUSTED, NULL, "molar mass: all %zu runs at "
                        "one concentration, cannot extrapolate to zero", n);
 

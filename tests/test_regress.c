@@ -923,6 +923,10 @@ static size_t check_random_cases(int near_ties, unsigned long seed)
       cr_assert_eq(got, want, "%s, n %zu, rep %d: %zu distinct, the "
                    "definition gives %zu", near_ties ? "near ties" : "plain",
                    n, rep, got, want);
+      for (size_t cap = 0; cap <= 4; cap++)
+        cr_assert_eq(ff_rg_distinct_upto(x, n, cap), want < cap ? want : cap,
+                     "upto %zu, n %zu, rep %d: the definition gives %zu",
+                     cap, n, rep, want);
       with_ties += want < n;
     }
   free(x);
@@ -966,6 +970,24 @@ Test(regress, distinct_keeps_the_order_of_a_chain, .init = setup)
   }
   cr_expect_eq(distinct_by_definition(x, 120), 40);
   cr_expect_eq(ff_rg_distinct(x, 120), 40);
+  /* Rising order: every new maximum beyond the tolerance is proven new. */
+  cr_expect_eq(ff_rg_distinct_upto(x, 120, 3), 3);
+  /* One molality with values 0.9 tolerance either side: the early scan
+   * proves nothing beyond the first value and the full count decides (1:
+   * each value is the same as an earlier one). Then a third molality
+   * inside the range of the first two: it counts without being a new
+   * extreme, found by the full count. */
+  const double a = 0.05;
+  double y[40];
+  for (size_t k = 0; k < 40; k++)
+    y[k] = k % 2 ? a : a * (1.0 + (k % 4 == 0 ? 0.9 : -0.9) * t);
+  cr_expect_eq(distinct_by_definition(y, 40), 1);
+  cr_expect_eq(ff_rg_distinct_upto(y, 40, 3), 1);
+  for (size_t k = 0; k < 40; k++)
+    y[k] = k == 1 ? 0.03 : k == 2 ? 0.02 : 0.01;
+  cr_expect_eq(distinct_by_definition(y, 40), 3);
+  cr_expect_eq(ff_rg_distinct_upto(y, 40, 3), 3);
+  cr_expect_eq(ff_rg_distinct_upto(y, 40, 2), 2);
 }
 
 /* Non-finite values take the pair-by-pair path: the same count. */
@@ -980,6 +1002,11 @@ Test(regress, distinct_with_non_finite_values, .init = setup)
   x[30] = INFINITY;
   x[41] = -INFINITY;
   cr_expect_eq(ff_rg_distinct(x, 64), distinct_by_definition(x, 64));
+  for (size_t cap = 1; cap <= 4; cap++)
+    cr_expect_eq(ff_rg_distinct_upto(x, 64, cap), cap);
+  x[0] = NAN;
+  x[1] = x[2] = 0.02;
+  cr_expect_eq(ff_rg_distinct_upto(x, 3, 3), distinct_by_definition(x, 3));
 }
 
 /* The refits run on the worker pool in blocks of draws; the summary must
