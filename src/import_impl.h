@@ -23,6 +23,10 @@
  */
 int ff_import_parse_number(const char *s, size_t n, char decimal, double *out);
 
+/* 1 when ff_import_parse_number would return 0 for the same text (the
+ * value is not made when that is sure without it), else 0. */
+int ff_import_is_number(const char *s, size_t n, char decimal);
+
 /* 1 when s[0..n) is a missing-value marker: empty, NaN, n/a, ---, OL, ERR,
  * ####, inf, ... (case-insensitive, blanks around ignored). */
 int ff_import_is_missing_text(const char *s, size_t n);

@@ -73,9 +73,20 @@ static int slow_number(const char *p, size_t n, char decimal, double *out)
 #define FAST_PATH 0
 #endif
 
-int ff_import_parse_number(const char *s, size_t n, char decimal, double *out)
+/* What the scan of a number cell found. */
+struct numscan {
+  const char *start, *end;     /* trimmed text, sign included */
+  uint64_t mant;
+  long exp10;
+  int exact, neg;
+};
+
+/* The grammar: 0 when s[0..n) is a number as ff_import_parse_number
+ * reads one (its value still to be made), -1 otherwise. */
+static int scan_number(const char *s, size_t n, char decimal,
+                       struct numscan *sc)
 {
-  const char *p = s, *e = s + n, *start;
+  const char *p = s, *e = s + n;
   uint64_t mant = 0;
   int ndig = 0, any = 0, exact = 1, neg = 0;
   long exp10 = 0;
@@ -84,7 +95,7 @@ int ff_import_parse_number(const char *s, size_t n, char decimal, double *out)
     p++;
   while (e > p && is_blank(e[-1]))
     e--;
-  start = p;
+  sc->start = p;
   if (p < e && (*p == '+' || *p == '-')) {
     neg = *p == '-';
     p++;
@@ -132,13 +143,48 @@ int ff_import_parse_number(const char *s, size_t n, char decimal, double *out)
   }
   if (p != e)
     return -1;
-  if (FAST_PATH && exact && mant <= ((uint64_t)1 << 53) && exp10 >= -22 && exp10 <= 22) {
-    double x = (double)mant;
-    x = exp10 < 0 ? x / pow10_exact[-exp10] : x * pow10_exact[exp10];
-    *out = neg ? -x : x;
+  sc->end = e;
+  sc->mant = mant;
+  sc->exp10 = exp10;
+  sc->exact = exact;
+  sc->neg = neg;
+  return 0;
+}
+
+/* The one exact multiply or divide applies. */
+static int fast_case(const struct numscan *sc)
+{
+  return FAST_PATH && sc->exact && sc->mant <= ((uint64_t)1 << 53)
+         && sc->exp10 >= -22 && sc->exp10 <= 22;
+}
+
+int ff_import_parse_number(const char *s, size_t n, char decimal, double *out)
+{
+  struct numscan sc;
+
+  if (scan_number(s, n, decimal, &sc) != 0)
+    return -1;
+  if (fast_case(&sc)) {
+    double x = (double)sc.mant;
+    x = sc.exp10 < 0 ? x / pow10_exact[-sc.exp10] : x * pow10_exact[sc.exp10];
+    *out = sc.neg ? -x : x;
     return 0;
   }
-  return slow_number(start, (size_t)(e - start), decimal, out);
+  return slow_number(sc.start, (size_t)(sc.end - sc.start), decimal, out);
+}
+
+int ff_import_is_number(const char *s, size_t n, char decimal)
+{
+  struct numscan sc;
+  double x;
+
+  if (scan_number(s, n, decimal, &sc) != 0)
+    return 0;
+  /* the exact case always gives a finite value; only the rest can
+   * overflow */
+  return fast_case(&sc)
+         || slow_number(sc.start, (size_t)(sc.end - sc.start), decimal,
+                        &x) == 0;
 }
 
 static int same_ci(const char *a, size_t n, const char *word)

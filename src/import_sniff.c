@@ -132,14 +132,14 @@ static enum kind classify(const char *s, size_t n, char *dec)
   *dec = 0;
   /* numbers first: no missing-value marker reads as a number, so the
    * order of these two tests does not matter, and numbers are common */
-  if (ff_import_parse_number(s, n, '.', &x) == 0) {
+  if (ff_import_is_number(s, n, '.')) {
     if (memchr(s, '.', n) != NULL)
       *dec = '.';
     return K_NUM;
   }
   if (ff_import_is_missing_text(s, n))
     return K_MISSING;
-  if (ff_import_parse_number(s, n, ',', &x) == 0) {
+  if (ff_import_is_number(s, n, ',')) {
     *dec = ',';
     return K_NUM;
   }
