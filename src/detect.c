@@ -190,7 +190,7 @@ static int check_input(const double *t, const double *y, size_t n,
     memcpy(&a, &t[i], sizeof a);
     memcpy(&b, &y[i], sizeof b);
     bad |= ((a & e) == e) | ((b & e) == e);
-    ok &= i == 0 || t[i] > t[i - 1];
+    ok &= t[i] > t[i > 0 ? i - 1 : 0] || i == 0;
   }
   if (ok && !bad)
     return FF_OK;

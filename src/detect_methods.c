@@ -722,6 +722,9 @@ static int model_fit_blocks(double *fx, double *fy, size_t m, double *c0,
 struct model_ys {
   double *v;
   size_t s0, n, got;
+  double *e;                   /* exp(-(t - t_ref) / tau) of the first pass */
+  size_t e_got;                /* how many of them */
+  double e_tau, e_tref;        /* for this tau and t_ref */
 };
 
 static double model_ys_at(const struct dctx *c, struct model_ys *m, size_t j)
@@ -750,20 +753,30 @@ static int model_pass(const struct dctx *c, const struct ff_event *e,
   /* x[j] = x[j-1] + P + xc Q with cap = cpl + xc (cps - cpl): the step of
    * the energy balance below, arranged so that only one multiply-add
    * waits for the previous x. */
-  double inv_lat = 1.0 / c->lat, dcp = c->cps - c->cpl;
+  double inv_lat = 1.0 / c->lat, inv_tau = 1.0 / tau, dcp = c->cps - c->cpl;
+
+  /* The pass that moves only the bath temperature has the first pass's
+   * exponentials: the same numbers, kept. */
+  int reuse = memcmp(&tau, &ys->e_tau, sizeof tau) == 0
+              && memcmp(&tref, &ys->e_tref, sizeof tref) == 0,
+      keep = ys->e_got == 0;
+#define MODEL_EXP(j)                                                          \
+  (reuse && (j) < ys->e_got ? ys->e[j]                                        \
+   : (keep ? (ys->e[j] = exp(-(c->t[s0 + (j)] - tref) / tau))                 \
+           : exp(-(c->t[s0 + (j)] - tref) / tau)))
 
   x[0] = 0.0;
   /* The liquid curve at t[b] is the next step's value at t[a]. */
-  double lnext = n > 1 ? bath + amp * exp(-(c->t[s0] - tref) / tau) : 0.0;
+  double lnext = n > 1 ? bath + amp * MODEL_EXP(0) : 0.0;
   for (size_t j = 1; j < n; j++) {
     size_t a = s0 + j - 1, b = a + 1;
     double xc = x[j - 1] < 0.0 ? 0.0 : (x[j - 1] > 1.0 ? 1.0 : x[j - 1]);
-    double la = lnext, lb = bath + amp * exp(-(c->t[b] - tref) / tau);
+    double la = lnext, lb = bath + amp * MODEL_EXP(j);
     lnext = lb;
     double da = model_ys_at(c, ys, j - 1) - la,
            db = model_ys_at(c, ys, j) - lb;
     double pj = (c->cpl * (db - da)
-                 + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) / tau)
+                 + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) * inv_tau)
                 * inv_lat,
            qj = dcp * ((db - da) + (lb - la)) * inv_lat;
     x[j] = x[j - 1] + (pj + xc * qj);
@@ -771,6 +784,12 @@ static int model_pass(const struct dctx *c, const struct ff_event *e,
       nx = j + 1;              /* x[j] is the last one computed */
       break;
     }
+  }
+#undef MODEL_EXP
+  if (keep) {
+    ys->e_got = n > 1 ? nx : 0;
+    ys->e_tau = tau;
+    ys->e_tref = tref;
   }
   pk = dd_index_at(c, e->peak_time_s);
   out[4] = (pk >= s0 && pk < s0 + nx) ? x[pk - s0] : NAN;
@@ -854,12 +873,15 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
   ys.s0 = s0;
   ys.n = i1 - s0;
   ys.got = 0;
-  ys.v = malloc(2 * ys.n * sizeof *ys.v);
+  ys.e_got = 0;
+  ys.e_tau = ys.e_tref = NAN;
+  ys.v = malloc(3 * ys.n * sizeof *ys.v);
   if (ys.v == NULL) {
     est_fail(es, "out of memory");
     return;
   }
   x = ys.v + ys.n;
+  ys.e = x + ys.n;
   if (model_pass(c, e, l, s0, i0, i1, &ys, x, r0, es) != 0) {
     free(ys.v);
     return;
