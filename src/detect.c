@@ -444,9 +444,6 @@ double dd_ys_fill(const struct dctx *c, size_t i)
   }
   i0 = (tag - 1) * YS_BLOCK;
   i1 = i0 + YS_BLOCK < c->n ? i0 + YS_BLOCK : c->n;
-#ifdef FD_DEBUG
-  { extern unsigned long fd_fills; fd_fills++; }
-#endif
   smooth_block(c, i0, i1, k->v + (size_t)w * YS_BLOCK);
   k->tag[w] = tag;
   k->filled[w] = ++k->clock;
