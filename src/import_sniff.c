@@ -16,6 +16,17 @@ struct line {
   size_t off, len;              /* text without its line end */
   unsigned long no;             /* 1-based physical line */
   int skip;                     /* blank or '#' comment */
+  unsigned has;                 /* HAS_* bits: candidate delimiters seen */
+};
+
+/* Which candidate delimiters a line holds (tab counts as a blank too). */
+#define HAS_SEMICOLON 1u
+#define HAS_TAB 2u
+#define HAS_COMMA 4u
+#define HAS_SPACE 8u
+static const unsigned char has_bit[256] = {
+  [';'] = HAS_SEMICOLON, ['\t'] = HAS_TAB, [','] = HAS_COMMA,
+  [' '] = HAS_SPACE
 };
 
 struct span {
@@ -196,10 +207,12 @@ static size_t find_lines(const char *buf, size_t start, size_t len, int eof,
   ends[0] = ends[1] = ends[2] = 0;
   while (i < len && n < max) {
     size_t a = i;
+    unsigned has = 0;
     while (i < len && buf[i] != '\n' && buf[i] != '\r')
-      i++;
+      has |= has_bit[(unsigned char)buf[i++]];
     if (i >= len && !eof)
       break;                          /* cut by the sample's end */
+    ln[n].has = has;
     ln[n].off = a;
     ln[n].len = i - a;
     ln[n].no = no++;
@@ -336,13 +349,16 @@ struct colstat {
  * answer as strong(shape_of(...)), sooner: a line without the delimiter
  * (without any blank for ' ') is one field, and counting stops at two.
  */
-static size_t strong_nf(const char *s, size_t n, char delim, struct span *f)
+static size_t strong_nf(const struct line *ln, const char *s, size_t n,
+                        char delim, struct span *f)
 {
   size_t nf, num = 0;
   char dec;
+  unsigned need = delim == ';' ? HAS_SEMICOLON : delim == '\t' ? HAS_TAB
+                  : delim == ',' ? HAS_COMMA
+                  : delim == ' ' ? HAS_SPACE | HAS_TAB : 0;
 
-  if (delim == ' ' ? memchr(s, ' ', n) == NULL && memchr(s, '\t', n) == NULL
-                   : memchr(s, delim, n) == NULL)
+  if (need != 0 ? (ln->has & need) == 0 : memchr(s, delim, n) == NULL)
     return 0;
   nf = split(s, n, delim, f, MAX_FIELDS);
   if (nf < 2)
@@ -401,7 +417,7 @@ static size_t strong_counts(const char *buf, const struct line *ln,
     size_t nf;
     if (ln[i].skip)
       continue;
-    nf = strong_nf(buf + ln[i].off, ln[i].len, delim, f);
+    nf = strong_nf(&ln[i], buf + ln[i].off, ln[i].len, delim, f);
     if (nf > 0)
       nfs[m++] = nf;
   }
