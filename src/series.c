@@ -529,8 +529,9 @@ static double mc_u_i(const struct ff_series_run *r, size_t draws,
   return sqrt(m2 / (double)(draws - 1));
 }
 
-static void thermo(const struct ff_sheet *sh, struct ff_series_run *r,
-                   const struct ff_series_opts *o)
+/* i, phi, osmolality, activity (thermo.h) of a sample or standard; its
+ * Monte Carlo check runs later, beside the fits (fits_and_checks). */
+static void thermo(const struct ff_sheet *sh, struct ff_series_run *r)
 {
   struct ff_run_in in = FF_RUN_IN_INIT;
   struct ff_fusion water = FF_FUSION_WATER, other;
@@ -555,11 +556,8 @@ static void thermo(const struct ff_sheet *sh, struct ff_series_run *r,
   else if (ff_fusion_from_solvent(r->solvent, &other, &td) == FF_OK)
     in.fusion = &other;
   ff_diag_clear(&td);
-  if (ff_thermo_run(&in, &r->th, &td) != FF_OK) {
+  if (ff_thermo_run(&in, &r->th, &td) != FF_OK)
     series_fail(sh, r, -1, td.status, "%s", td.msg);
-    return;
-  }
-  r->mc_u_vant_hoff_i = mc_u_i(r, o->mc_draws, o->seed + r->row);
 }
 
 static void unknown_mass(const struct ff_sheet *sh, struct ff_series_run *r,
@@ -692,7 +690,7 @@ struct per_run {
 };
 
 /* Step 3 for run i: reads the shared Kf calibrations, writes only run i
- * (its Monte Carlo draws have their own generator and seed). */
+ * (an unknown's Monte Carlo draws have their own generator and seed). */
 static void numbers_one(void *ctx, size_t i)
 {
   const struct per_run *pr = ctx;
@@ -710,7 +708,35 @@ static void numbers_one(void *ctx, size_t i)
   if (row->role == FF_SHEET_SAMPLE)
     molality(pr->sheet, r, pr->o);
   if (r->status == FF_OK)
-    thermo(pr->sheet, r, pr->o);
+    thermo(pr->sheet, r);
+}
+
+/* Step 4: item 0 fits the groups (series_fit, which runs its own pools
+ * and reads the runs' i, u(i), molality and unknowns' masses); item i + 1
+ * is run i's Monte Carlo check of u(i), written only to that run. A run
+ * has its i exactly when it is a sample or standard still FF_OK here. */
+struct after_runs {
+  struct ff_series *out;
+  const struct ff_sheet *sheet;
+  const struct ff_series_opts *o;
+  int fit_status;             /* series_fit's return, by item 0 */
+};
+
+static void fits_and_checks(void *ctx, size_t k)
+{
+  struct after_runs *ar = ctx;
+  struct ff_series_run *r;
+  enum ff_sheet_role role;
+
+  if (k == 0) {
+    ar->fit_status = series_fit(ar->out, ar->sheet, ar->o);
+    return;
+  }
+  r = &ar->out->runs[k - 1];
+  role = ar->sheet->row[r->row].role;
+  if (r->status == FF_OK
+      && (role == FF_SHEET_SAMPLE || role == FF_SHEET_STANDARD))
+    r->mc_u_vant_hoff_i = mc_u_i(r, ar->o->mc_draws, ar->o->seed + r->row);
 }
 
 /* Out of memory: nothing of the result is usable. */
@@ -789,8 +815,13 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
     ff_parallel_for(out->n_runs, numbers_one, &pr);
   }
 
-  /* 4. Fits per solute and per unknown (series_fit.c). */
-  st = series_fit(out, sheet, o);
+  /* 4. Fits per solute and per unknown (series_fit.c), and beside them
+   * the Monte Carlo checks of u(i), which the fits do not read. */
+  {
+    struct after_runs ar = { out, sheet, o, FF_OK };
+    ff_parallel_for(out->n_runs + 1, fits_and_checks, &ar);
+    st = ar.fit_status;
+  }
   if (st == FF_EIO)
     return no_memory(out, d);
 
