@@ -445,6 +445,15 @@ double dd_ys_fill(const struct dctx *c, size_t i)
   i0 = (tag - 1) * YS_BLOCK;
   i1 = i0 + YS_BLOCK < c->n ? i0 + YS_BLOCK : c->n;
   smooth_block(c, i0, i1, k->v + (size_t)w * YS_BLOCK);
+  {
+    const double *v = k->v + (size_t)w * YS_BLOCK;
+    size_t at = 0;
+    for (size_t j = 1; j < i1 - i0; j++)
+      if (v[j] > v[at])
+        at = j;
+    k->top_v[tag - 1] = v[at];
+    k->top_i[tag - 1] = i0 + at;
+  }
   k->tag[w] = tag;
   k->filled[w] = ++k->clock;
   k->last = w;
@@ -464,8 +473,12 @@ static int smooth(struct dctx *c)
     return -1;
   c->ysc->ways = nb < YS_WAYS ? (unsigned)nb : YS_WAYS;
   c->ysc->v = malloc((size_t)c->ysc->ways * YS_BLOCK * sizeof *c->ysc->v);
-  if (c->ysc->v == NULL)
+  c->ysc->top_v = malloc(nb * sizeof *c->ysc->top_v);
+  c->ysc->top_i = malloc(nb * sizeof *c->ysc->top_i);
+  if (c->ysc->v == NULL || c->ysc->top_v == NULL || c->ysc->top_i == NULL)
     return -1;
+  for (size_t b = 0; b < nb; b++)
+    c->ysc->top_i[b] = SIZE_MAX;
   if (!isfinite(big * (double)(2 * c->h + 2)))
     for (size_t i = 0; i < c->n && !c->ys_nan; i++)
       if (isnan(smooth_at(c, i)))
@@ -475,8 +488,11 @@ static int smooth(struct dctx *c)
 
 static void smooth_free(struct dctx *c)
 {
-  if (c->ysc != NULL)
+  if (c->ysc != NULL) {
     free(c->ysc->v);
+    free(c->ysc->top_v);
+    free(c->ysc->top_i);
+  }
   free(c->ysc);
   c->ysc = NULL;
 }
@@ -568,6 +584,43 @@ static size_t cooling_start(const struct dctx *c, size_t w, size_t i1)
     if (dd_ys(c, k - 1) >= top)
       return k - 1;
   return w;
+}
+
+/*
+ * The first index of the largest smoothed value in [a, b) (a when b <= a):
+ * whole blocks already filled once answer from their kept maximum, so a
+ * warm hold of hours is not smoothed again. The same index as the plain
+ * scan (the first of equal maxima, strict comparisons), which it falls
+ * back to when a smoothed value is NaN.
+ */
+static size_t warmest(const struct dctx *c, size_t a, size_t b)
+{
+  const struct ys_cache *k = c->ysc;
+  size_t best = a, i = a;
+  double yb;
+
+  if (b <= a)
+    return a;
+  yb = dd_ys(c, a);
+  while (i < b) {
+    size_t blk = i / YS_BLOCK, end = (blk + 1) * YS_BLOCK;
+    if (!c->ys_nan && i == blk * YS_BLOCK && end <= b) {
+      if (k->top_i[blk] == SIZE_MAX)
+        (void)dd_ys_fill(c, i);  /* fills the block and its maximum */
+      if (k->top_v[blk] > yb) {
+        yb = k->top_v[blk];
+        best = k->top_i[blk];
+      }
+      i = end;
+      continue;
+    }
+    for (; i < b && i < end; i++)
+      if (dd_ys(c, i) > yb) {
+        best = i;
+        yb = dd_ys(c, i);
+      }
+  }
+  return best;
 }
 
 /* Liquid fits over [lw0, lw1): Newton (kind 1) and the textbook line over
@@ -830,12 +883,7 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
    * exp(-6.9) = 0.1 % of the offset after 3 t90; 30 s when the rise gives
    * no measure. */
   {
-    double yw = dd_ys(c, lw0);
-    for (size_t k = seg0; k < m; k++)
-      if (dd_ys(c, k) > yw) {
-        lw0 = k;
-        yw = dd_ys(c, k);
-      }
+    lw0 = warmest(c, seg0, m);
   }
   lw1 = dd_index_at(c, c->t[m] - fmax((double)(h + 1) * c->dt, 0.5 * t90));
   if (lw1 > lw0)
@@ -976,12 +1024,7 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
   e->end_s = c->t[b_end - 1];
   e->noise_k = c->sigma;
   {
-    double yw = dd_ys(c, lw0);
-    for (size_t q = seg0; q < k; q++)
-      if (dd_ys(c, q) > yw) {
-        lw0 = q;
-        yw = dd_ys(c, q);
-      }
+    lw0 = warmest(c, seg0, k);
   }
   /* The corner is rounded by the probe lag: the liquid fits stop short. */
   lw1 = dd_index_at(c, c->t[k] - 0.5 * BREAK_WINDOW_S);

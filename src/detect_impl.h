@@ -4,6 +4,7 @@
 
 #include <math.h>
 #include <stddef.h>
+#include <stdint.h>
 #include "frostfit/detect.h"
 
 /*
@@ -21,6 +22,11 @@ struct ys_cache {
   unsigned long filled[YS_WAYS]; /* when each was filled */
   unsigned long clock;
   unsigned ways, last;         /* blocks kept; the one last read */
+  /* Each block's largest value and its first index, kept once the block
+   * has been filled (so a scan for the warmest point of a long stretch
+   * need not fill it again); top_i of a block never filled is SIZE_MAX. */
+  double *top_v;
+  size_t *top_i;
 };
 
 /* One channel being analysed. Arrays borrowed from the caller. */
