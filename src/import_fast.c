@@ -2,7 +2,14 @@
  * region of a regular file is cut into chunks at line starts and parsed in
  * parallel by hand-written code; anything unusual makes it step aside so
  * that the general (libcsv) reader in import.c produces the result and the
- * exact diagnostic. Both give the same dataset, bit for bit. */
+ * exact diagnostic. Both give the same dataset, bit for bit.
+ *
+ * Pass 1 counts each chunk's lines (SSE2), so the arrays are allocated
+ * exactly, one slot a line; pass 2 parses each chunk into its slots, 1 MiB
+ * preads at a time; then compact() drops the slots that are no kept row
+ * (blank and comment lines, missing, repeated or backwards times, rows
+ * without a temperature) in file order, as the general reader does. */
+
 /* madvise(MADV_POPULATE_WRITE) is a Linux extension; this file asks for
  * it (without it, the pages fault in one by one as before). */
 #define _DEFAULT_SOURCE 1
@@ -131,7 +138,8 @@ static size_t count_lf(const char *s, size_t n)
   while (i + 16 <= n) {
     /* per byte lane: minus the matches, at most 255 rounds */
     __m128i acc = _mm_setzero_si128();
-    size_t stop = n - i >= 255 * 16 ? i + 255 * 16 : i + ((n - i) & ~(size_t)15);
+    size_t stop = n - i >= 255 * 16 ? i + 255 * 16
+                  : i + ((n - i) & ~(size_t)15);
     for (; i < stop; i += 16) {
       __m128i v = _mm_loadu_si128((const __m128i *)(const void *)(s + i));
       acc = _mm_sub_epi8(acc, _mm_cmpeq_epi8(v, lf));
@@ -455,7 +463,7 @@ static const char *parse_line(struct worker *w, const char *p)
     q++;
   }
   if (f + 1 < in->min_fields)
-    return NULL;                   /* a short row: the general reader says so */
+    return NULL;                   /* short: the general reader says so */
   q += *q == '\r' ? 2 : 1;
   w->slot++;
   for (size_t j = 0; j <= nch; j++)

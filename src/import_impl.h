@@ -114,8 +114,8 @@ struct ff_fast_in {
  * The fast path for plain tables (single-byte delimiter, no quotes,
  * numeric, clock or ISO 8601 time): parses the data region in parallel
  * chunks into ds (which new_dataset() in import.c prepared: columns and
- * channels set, no rows) and does what the general reader's end does (times from
- * the first kept row, ranges, counters). Returns FF_OK, or
+ * channels set, no rows) and does what the general reader's end does
+ * (times from the first kept row, ranges, counters). Returns FF_OK, or
  * FF_FAST_DECLINED with ds as it came when the file holds anything the
  * general reader must judge (quotes, bad cells, ragged rows, lone CR line
  * ends, NUL bytes, very long lines, no kept rows ...) or memory runs
