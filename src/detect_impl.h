@@ -73,6 +73,13 @@ int dd_newton(const struct dctx *c, size_t i0, size_t i1,
 int dd_branch(const struct dctx *c, size_t i0, size_t i1, int order,
               double t_ref, struct ff_branch_fit *b, double cov[9]);
 
+/* The model's straight line y = c0 + c1 x through m > MODEL_FIT_MAX points
+ * as weighted block means (fx, fy overwritten); c00 and c11 are the
+ * variances of c0 and c1 scaled by the residual variance of every point.
+ * GSL status. */
+int dd_model_fit_blocks(double *fx, double *fy, size_t m, double *c0,
+                        double *c1, double *c00, double *c11);
+
 /* The methods; each fills est (ok = 0 with why when not computable). */
 void dd_plateau(const struct dctx *c, struct ff_event *e, size_t i0,
                 size_t i1);

@@ -669,7 +669,7 @@ void dd_break(const struct dctx *c, struct ff_event *e, size_t l0, size_t i1)
 #define MODEL_X_STOP (MODEL_X_MAX + 0.1)
 
 /* Longer freezing branches are fitted as block means of at most this many
- * (model_fit_blocks); the branch of a 10 Hz logger over 40 minutes has
+ * (dd_model_fit_blocks); the branch of a 10 Hz logger over 40 minutes has
  * 24,000 points, fitted three times. */
 #define MODEL_FIT_MAX 4096
 
@@ -681,8 +681,8 @@ void dd_break(const struct dctx *c, struct ff_event *e, size_t l0, size_t i1)
  * the slope at 10 Hz); the residual variance that scales the covariance
  * comes from every point, as gsl_fit_linear's does. GSL status.
  */
-static int model_fit_blocks(double *fx, double *fy, size_t m, double *c0,
-                            double *c1, double *c00, double *c11)
+int dd_model_fit_blocks(double *fx, double *fy, size_t m, double *c0,
+                        double *c1, double *c00, double *c11)
 {
   size_t k = (m + MODEL_FIT_MAX - 1) / MODEL_FIT_MAX, nb = (m + k - 1) / k;
   double *bx = malloc(3 * nb * sizeof *bx), *by, *bw, c01, chisq, ss = 0.0;
@@ -770,7 +770,9 @@ static int model_pass(const struct dctx *c, const struct ff_event *e,
   double lnext = n > 1 ? bath + amp * MODEL_EXP(0) : 0.0;
   for (size_t j = 1; j < n; j++) {
     size_t a = s0 + j - 1, b = a + 1;
-    double xc = x[j - 1] < 0.0 ? 0.0 : (x[j - 1] > 1.0 ? 1.0 : x[j - 1]);
+    /* x is clamped to [0, 1] for the heat capacity; it never exceeds
+     * MODEL_X_STOP < 1 here (the loop stops first), so only 0 binds. */
+    double xc = x[j - 1] < 0.0 ? 0.0 : x[j - 1];
     double la = lnext, lb = bath + amp * MODEL_EXP(j);
     lnext = lb;
     double da = model_ys_at(c, ys, j - 1) - la,
@@ -822,7 +824,7 @@ static int model_pass(const struct dctx *c, const struct ff_event *e,
    * matrix, in two passes over the points. */
   if ((m <= MODEL_FIT_MAX
        ? gsl_fit_linear(fx, 1, fy, 1, m, &c0, &c1, &c00, &c01, &c11, &sumsq)
-       : model_fit_blocks(fx, fy, m, &c0, &c1, &c00, &c11)) == GSL_SUCCESS
+       : dd_model_fit_blocks(fx, fy, m, &c0, &c1, &c00, &c11)) == GSL_SUCCESS
       && isfinite(c0) && isfinite(c1)) {
     out[0] = c0;
     out[1] = sqrt(c00);

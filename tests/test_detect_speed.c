@@ -379,3 +379,43 @@ Test(detect_speed, plateau_shortcut_finds_the_plain_plateau, .init = setup)
   free(t);
   free(y);
 }
+
+/* ---- the model's straight line on long branches -------------------- */
+
+/* 30,000 points of T = -0.2 - 0.19 (1/(1 - x) - 1) with x rising to a half
+ * and 3 mK noise: the block-mean fit gives the fit of every point
+ * (gsl_fit_linear) to a five-hundredth of its standard uncertainty (the
+ * spread of 1/(1 - x) within a block of 8 points, largest where x starts)
+ * and the same uncertainties to a thousandth. */
+Test(detect_speed, model_block_fit_matches_every_point, .init = setup)
+{
+  size_t m = 30000;
+  double *fx = malloc(m * sizeof *fx), *fy = malloc(m * sizeof *fy);
+  double *gx = malloc(m * sizeof *gx), *gy = malloc(m * sizeof *gy);
+  double a0, a1, a00, a01, a11, ss, b0, b1, b00, b11;
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+
+  cr_assert(fx && fy && gx && gy && r);
+  for (size_t i = 0; i < m; i++) {
+    double x = 0.5 * sqrt((double)(i + 1) / (double)m);
+    fx[i] = gx[i] = 1.0 / (1.0 - x) - 1.0;
+    fy[i] = gy[i] = -0.2 - 0.19 * fx[i] + gsl_ran_gaussian(r, 0.003);
+  }
+  cr_assert_eq(gsl_fit_linear(gx, 1, gy, 1, m, &a0, &a1, &a00, &a01, &a11,
+                              &ss), GSL_SUCCESS);
+  cr_assert_eq(dd_model_fit_blocks(fx, fy, m, &b0, &b1, &b00, &b11),
+               GSL_SUCCESS);
+  cr_assert(fabs(b0 - a0) < 2e-3 * sqrt(a00), "c0 %.12f, every point %.12f "
+            "(u %.3g)", b0, a0, sqrt(a00));
+  cr_assert(fabs(b1 - a1) < 2e-3 * sqrt(a11), "c1 %.12f, every point %.12f "
+            "(u %.3g)", b1, a1, sqrt(a11));
+  cr_assert(fabs(sqrt(b00) / sqrt(a00) - 1.0) < 1e-3, "u(c0) %.4g vs %.4g",
+            sqrt(b00), sqrt(a00));
+  cr_assert(fabs(sqrt(b11) / sqrt(a11) - 1.0) < 1e-3, "u(c1) %.4g vs %.4g",
+            sqrt(b11), sqrt(a11));
+  gsl_rng_free(r);
+  free(fx);
+  free(fy);
+  free(gx);
+  free(gy);
+}
