@@ -681,6 +681,44 @@ void dd_break(const struct dctx *c, struct ff_event *e, size_t l0, size_t i1)
  * the slope at 10 Hz); the residual variance that scales the covariance
  * comes from every point, as gsl_fit_linear's does. GSL status.
  */
+/* The model's straight line through every one of the m points: a
+ * two-column design matrix, unit weights. GSL status. */
+static int model_fit_all(const double *fx, const double *fy, size_t m,
+                         double *c0, double *c1, double *c00, double *c11)
+{
+  gsl_matrix *X = gsl_matrix_alloc(m, 2), *cov = gsl_matrix_alloc(2, 2);
+  gsl_vector *w = gsl_vector_alloc(m), *yv = gsl_vector_alloc(m),
+             *cf = gsl_vector_alloc(2);
+  gsl_multifit_linear_workspace *ws = gsl_multifit_linear_alloc(m, 2);
+  double chisq;
+  int st = GSL_ENOMEM;
+
+  if (X && cov && w && yv && cf && ws) {
+    for (size_t k = 0; k < m; k++) {
+      gsl_matrix_set(X, k, 0, 1.0);
+      gsl_matrix_set(X, k, 1, fx[k]);
+      gsl_vector_set(w, k, 1.0);
+      gsl_vector_set(yv, k, fy[k]);
+    }
+    st = gsl_multifit_wlinear(X, w, yv, cf, cov, &chisq, ws);
+    if (st == GSL_SUCCESS) {
+      double s2 = chisq / (double)(m - 2);
+      *c0 = gsl_vector_get(cf, 0);
+      *c1 = gsl_vector_get(cf, 1);
+      *c00 = gsl_matrix_get(cov, 0, 0) * s2;
+      *c11 = gsl_matrix_get(cov, 1, 1) * s2;
+    }
+  }
+  gsl_matrix_free(X);
+  gsl_matrix_free(cov);
+  gsl_vector_free(w);
+  gsl_vector_free(yv);
+  gsl_vector_free(cf);
+  if (ws)
+    gsl_multifit_linear_free(ws);
+  return st;
+}
+
 int dd_model_fit_blocks(double *fx, double *fy, size_t m, double *c0,
                         double *c1, double *c00, double *c11)
 {
@@ -744,16 +782,12 @@ static int model_pass(const struct dctx *c, const struct ff_event *e,
                       size_t i1, struct model_ys *ys, double *x,
                       double out[5], struct ff_estimate *es)
 {
-  double tau = l->tau_s, c0, c1, c00, c01, c11, sumsq, *fx, *fy;
+  double tau = l->tau_s, c0, c1, c00, c11, *fx, *fy;
   size_t n = i1 - s0, m = 0, pk, nx = n;
   int ret = -1;
 
   /* The liquid curve as ff_event_eval_liquid gives it (kind 1). */
   double bath = l->bath_c, amp = l->t0_c - l->bath_c, tref = l->t_ref_s;
-  /* x[j] = x[j-1] + P + xc Q with cap = cpl + xc (cps - cpl): the step of
-   * the energy balance below, arranged so that only one multiply-add
-   * waits for the previous x. */
-  double inv_lat = 1.0 / c->lat, inv_tau = 1.0 / tau, dcp = c->cps - c->cpl;
 
   /* The pass that moves only the bath temperature has the first pass's
    * exponentials: the same numbers, kept. */
@@ -777,11 +811,10 @@ static int model_pass(const struct dctx *c, const struct ff_event *e,
     lnext = lb;
     double da = model_ys_at(c, ys, j - 1) - la,
            db = model_ys_at(c, ys, j) - lb;
-    double pj = (c->cpl * (db - da)
-                 + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) * inv_tau)
-                * inv_lat,
-           qj = dcp * ((db - da) + (lb - la)) * inv_lat;
-    x[j] = x[j - 1] + (pj + xc * qj);
+    double cap = (1.0 - xc) * c->cpl + xc * c->cps;
+    x[j] = x[j - 1] + (cap * (db - da)
+                       + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) / tau
+                       + (cap - c->cpl) * (lb - la)) / c->lat;
     if (x[j] > MODEL_X_STOP) {
       nx = j + 1;              /* x[j] is the last one computed */
       break;
@@ -820,10 +853,9 @@ static int model_pass(const struct dctx *c, const struct ff_event *e,
     }
   }
   /* Straight line in 1/(1 - x) - 1 by least squares, covariance scaled by
-   * the residual variance: the same estimate as a two-column design
-   * matrix, in two passes over the points. */
+   * the residual variance; long branches as block means. */
   if ((m <= MODEL_FIT_MAX
-       ? gsl_fit_linear(fx, 1, fy, 1, m, &c0, &c1, &c00, &c01, &c11, &sumsq)
+       ? model_fit_all(fx, fy, m, &c0, &c1, &c00, &c11)
        : dd_model_fit_blocks(fx, fy, m, &c0, &c1, &c00, &c11)) == GSL_SUCCESS
       && isfinite(c0) && isfinite(c1)) {
     out[0] = c0;
