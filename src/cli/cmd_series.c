@@ -810,9 +810,14 @@ static int figures(const struct opts *o, const struct ff_series *s)
   struct ff_plot_opts po = FF_PLOT_OPTS_DEFAULT;
   struct ff_plot_report rep;
   struct ff_diag d = FF_DIAG_INIT;
+  struct ff_cli_progress prog;
   char plots[PATH_MAX];
   struct ff_plot_set *ps;
   int st = FF_OK;
+
+  ff_cli_progress_init(&prog, o->sheet, o->quiet);
+  po.progress = ff_cli_progress_items;
+  po.progress_ctx = &prog;
 
   if (o->formats != NULL
       && ff_plot_parse_formats(o->formats, &po.formats, &d) != FF_OK)
@@ -836,6 +841,7 @@ static int figures(const struct opts *o, const struct ff_series *s)
   if (st == FF_OK) {
     memset(&rep, 0, sizeof rep);
     st = ff_plot_render(ps, &rep, &d);
+    ff_cli_progress_end(&prog);
     if (rep.errors[0] != '\0')
       ff_cli_msg("gnuplot reported:\n%s", rep.errors);
     if (st == FF_OK && !o->quiet) {

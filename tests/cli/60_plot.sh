@@ -107,3 +107,17 @@ if "$FF" point --help 2>/dev/null | grep -q -- '--figures'; then
     --format tiff
   expect_rc 1; expect_err "tiff"
 fi
+
+# Rendering shows a bar on a terminal only, and --quiet silences it.
+if command -v gnuplot >/dev/null 2>&1 && command -v script >/dev/null 2>&1; then
+  CASE="series --figures: a rendering bar on a terminal"
+  script -qc "'$FF' series '$P/in/sheet.csv' --figures '$P/bar' >/dev/null" /dev/null >"$P/tty" 2>&1
+  if grep -q 'rendering figures .*\([0-9]*\) / \1' "$P/tty"; then ok; else bad "no finished rendering bar"; fi
+  CASE="series --figures --quiet: no bar"
+  script -qc "'$FF' series '$P/in/sheet.csv' --figures '$P/bar' --quiet >/dev/null" /dev/null >"$P/tty" 2>&1
+  if grep -q 'rendering figures' "$P/tty"; then bad "--quiet still drew a bar"; else ok; fi
+  CASE="series --figures: nothing extra on a redirected stderr"
+  run "$FF" series "$P/in/sheet.csv" --figures "$P/bar"
+  expect_rc 0
+  if grep -q 'rendering' "$ERR"; then bad "bar on a non-terminal"; else ok; fi
+fi
