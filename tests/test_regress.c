@@ -519,6 +519,69 @@ Test(regress, association_recovers_k2_and_limit_one, .init = setup)
   ff_regress_result_release(&r);
 }
 
+/* A non-electrolyte whose i is flat within its uncertainty (values of the
+ * synthetic demo lab's urea runs, rounded): association must be refused as
+ * "not detected" whatever the sign of the tiny slope, and a change of 1e-12
+ * in one value must not move the association model in or out of the
+ * preferred slot (it did when the test was a limit on ln K2 alone). */
+Test(regress, association_not_detected_on_flat_data, .init = setup)
+{
+  const double m[4] = { 0.1, 0.2, 0.4, 0.8 };
+  const double base[4] = { 1.0006, 1.0001, 0.99978, 1.0001 };
+  const double u[4] = { 0.0024, 0.0012, 0.00059, 0.00030 };
+  const double nudge[5] = { 0.0, 1e-12, -1e-12, 3e-5, -3e-5 };
+  struct ff_particles p = { 1, 0, 0, 0, 0 };
+  enum ff_regress_model first = FF_REGRESS_NMODELS;
+
+  for (int v = 0; v < 5; v++) {
+    double i[4];
+    struct ff_regress_result r = FF_REGRESS_RESULT_INIT;
+    struct ff_diag d = FF_DIAG_INIT;
+
+    for (int k = 0; k < 4; k++)
+      i[k] = base[k] + (k == 3 ? nudge[v] : 0.0);
+    struct ff_regress_input in = { 4, m, i, u, NULL, p, A_PHI_0C };
+    cr_assert_eq(ff_regress_solute(&in, NULL, &r, &d), FF_OK, "%s", d.msg);
+    const struct ff_fit *f = &r.fit[FF_REGRESS_ASSOCIATION];
+    cr_expect(f->attempted);
+    cr_expect_eq(f->status, FF_EUNTRUSTED, "variant %d: K2 %.3g fitted", v,
+                 f->k_kg_mol);
+    cr_expect(strstr(f->reason, "not detected") != NULL, "%s", f->reason);
+    cr_assert(r.has_preferred);
+    cr_expect_neq(r.preferred, FF_REGRESS_ASSOCIATION);
+    if (v == 0)
+      first = r.preferred;
+    else if (v < 3)
+      cr_expect_eq(r.preferred, first, "variant %d prefers %s", v,
+                   ff_regress_model_name(r.preferred));
+    ff_regress_result_release(&r);
+  }
+}
+
+/* Real dimerisation under noise is still found: K2 = 7.3 kg/mol (chosen)
+ * with a fixed +-0.002 pattern on i (u 0.003). */
+Test(regress, association_detected_under_noise, .init = setup)
+{
+  double m[6] = { 0.012, 0.025, 0.047, 0.093, 0.18, 0.36 }, i[6], u[6];
+  const double k2 = 7.3, noise[6] = { 0.002, -0.002, 0.001, -0.001, 0.002,
+                                      -0.002 };
+  struct ff_particles p = { 1, 0, 0, 0, 0 };
+  struct ff_regress_result r = FF_REGRESS_RESULT_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+
+  for (int k = 0; k < 6; k++) {
+    double m1 = (-1.0 + sqrt(1.0 + 8.0 * k2 * m[k])) / (4.0 * k2);
+    i[k] = (m1 + k2 * m1 * m1) / m[k] + noise[k];
+    u[k] = 0.003;
+  }
+  struct ff_regress_input in = { 6, m, i, u, NULL, p, A_PHI_0C };
+  cr_assert_eq(ff_regress_solute(&in, NULL, &r, &d), FF_OK, "%s", d.msg);
+  const struct ff_fit *f = &r.fit[FF_REGRESS_ASSOCIATION];
+  cr_assert_eq(f->status, FF_OK, "%s", f->reason);
+  cr_expect(f->k_kg_mol > 5.0 && f->k_kg_mol < 10.0, "K2 %.4g", f->k_kg_mol);
+  ff_regress_result_release(&r);
+}
+
 /* ---- degenerate input ------------------------------------------------ */
 
 static void expect_no_nan(const struct ff_fit *f)
