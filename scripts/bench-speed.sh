@@ -74,15 +74,17 @@ run_timed() {
   shift
   secs=""
   rss_kb=""
+  cpu=""
   i=0
   while [ "$i" -lt "$repeat" ]; do
     i=$((i + 1))
     if [ "$have_time" = 1 ]; then
-      /usr/bin/time -f '%e %M' -o "$data/.time" "$@" > "$out" 2> "$data/.stderr"
+      /usr/bin/time -f '%e %M %U %S' -o "$data/.time" "$@" > "$out" 2> "$data/.stderr"
       rc=$?
       # last line: on failure /usr/bin/time writes "Command exited ..." first
       s=$(tail -n 1 "$data/.time" | cut -d' ' -f1)
       m=$(tail -n 1 "$data/.time" | cut -d' ' -f2)
+      c=$(tail -n 1 "$data/.time" | awk '{ printf "%.2f", $3 + $4 }')
     else
       t0=$(date +%s.%N)
       "$@" > "$out" 2> "$data/.stderr"
@@ -90,13 +92,21 @@ run_timed() {
       t1=$(date +%s.%N)
       s=$(echo "$t1 $t0" | awk '{ printf "%.3f", $1 - $2 }')
       m=""
+      c=""
     fi
     [ "$rc" = 0 ] || return 0
     if [ -z "$secs" ] || awk -v a="$s" -v b="$secs" 'BEGIN { exit !(a < b) }'; then
       secs=$s
       rss_kb=$m
+      cpu=$c
     fi
   done
+}
+
+# "   CPU x s (user + sys) = y cores busy" for the best run, when known.
+cpu_line() {
+  [ -n "$cpu" ] && awk -v c="$cpu" -v s="$secs" 'BEGIN {
+    printf "   CPU %.2f s (user + sys) = %.2f cores busy on average\n", c, c / s }'
 }
 
 # A command that is still a placeholder says "not built yet".
@@ -110,6 +120,7 @@ numeric_mb=$(awk -v r="$nrows" -v c="$cols" 'BEGIN { printf "%.1f", r * c * 8 / 
 cat "$large" > /dev/null   # warm the page cache: we time parsing, not the disk
 
 say ""
+say "machine: $(nproc) cores, load average $(cut -d' ' -f1-3 /proc/loadavg 2>/dev/null) (other work skews wall times)"
 say "== large file: $large"
 say "   $mb MB, $nrows rows x $cols columns; numeric data $numeric_mb MiB"
 
@@ -132,7 +143,8 @@ if [ "$rc" != 0 ]; then
 else
   ff_secs=$secs
   awk -v s="$secs" -v b="$bytes" -v r="$nrows" -v what="$what" 'BEGIN {
-    printf "   frostfit %-8s %7.3f s  %7.1f MB/s  %6.2f M rows/s\n", what, s, b / 1e6 / s, r / 1e6 / s }'
+    printf "   frostfit %-8s %7.3f s  %7.1f MB/s  %6.2f M rows/s  (target >= 400 MB/s)\n", what, s, b / 1e6 / s, r / 1e6 / s }'
+  cpu_line
   if [ "$what" = point ] && command -v python3 > /dev/null; then
     say "   frostfit found: $(python3 -c 'import json, sys
 d = json.load(open(sys.argv[1])); e = d.get("events", [])
@@ -155,6 +167,12 @@ if [ "$what" = point ]; then
       if (k > 0) printf ", peak RSS %.1f MiB = %.2f x numeric", k / 1024, k / 1024 / (r * c * 8 / 1048576)
       printf ")\n" }'
   fi
+  # The general libcsv reader on the same file, for comparison.
+  run_timed /dev/null env FF_IMPORT_NO_FAST=1 "$bin" inspect "$large" --json
+  if [ "$rc" = 0 ]; then
+    awk -v s="$secs" -v b="$bytes" 'BEGIN {
+      printf "   same, libcsv path (FF_IMPORT_NO_FAST=1) %7.3f s  %7.1f MB/s\n", s, b / 1e6 / s }'
+  fi
 fi
 
 # --- pandas/numpy comparison ----------------------------------------------
@@ -174,7 +192,7 @@ if $py -c 'import pandas, numpy' 2>/dev/null; then
     [ -n "$rss_kb" ] && awk -v k="$rss_kb" 'BEGIN { printf "   pandas peak RSS %.1f MiB\n", k / 1024 }'
     say "   pandas found: $(tail -n 1 "$data/.pandas.out")"
     [ -n "$ff_secs" ] && awk -v a="$secs" -v b="$ff_secs" -v what="$what" 'BEGIN {
-      printf "   frostfit %s is %.2f x the speed of pandas/numpy\n", what, a / b }'
+      printf "   frostfit %s is %.2f x the speed of pandas/numpy (target >= 3 x)\n", what, a / b }'
   else
     say "   pandas script failed (exit $rc): $(tail -n 3 "$data/.stderr")"
   fi
@@ -188,7 +206,8 @@ say "== batch: $batch ($runs runs of $samples samples, no figures)"
 run_timed "$data/.series.out" "$bin" series "$batch/sheet.csv" --json
 if [ "$rc" = 0 ]; then
   awk -v s="$secs" -v n="$runs" 'BEGIN {
-    printf "   frostfit series   %7.3f s  %7.1f runs/s\n", s, n / s }'
+    printf "   frostfit series   %7.3f s  %7.1f runs/s  (target < 2 s for 1,000 runs)\n", s, n / s }'
+  cpu_line
   [ -n "$rss_kb" ] && awk -v k="$rss_kb" 'BEGIN { printf "   peak RSS %.1f MiB\n", k / 1024 }'
 elif placeholder; then
   say "   'frostfit series' is not built yet: batch timing skipped"
