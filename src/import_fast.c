@@ -383,6 +383,97 @@ static double temp_value(const struct ff_fast_in *in, double v,
 }
 
 /*
+ * The rest of parse_line() for a row of plain numbers (no clock or ISO
+ * times), the common case, at q (the line's start): each cell becomes its
+ * value as soon as it is read, the temperatures in Celsius with NaN for a
+ * missing one, exactly as the general loop below computes them. A row
+ * that is not taken (NULL) ends the fast path, so nothing here need be
+ * undone.
+ */
+static const char *parse_plain(struct worker *w, const char *q, size_t slot)
+{
+  struct fast *fs = w->fs;
+  const struct ff_fast_in *in = fs->in;
+  const char delim = in->delimiter, dec = in->decimal;
+  const size_t ncol = in->n_columns, nch = fs->nch;
+  const int *cell_of = fs->cell_of;
+  const enum ff_temp_unit *units = in->units;
+  double *y = w->val + 1;          /* per channel: Celsius or NaN */
+  struct chunk *c = w->c;
+  size_t f = 0, present = 0;
+  double t = 0.0;
+  int t_missing = 0;
+
+  for (;; f++) {
+    const char *e;
+    int k = f < ncol ? cell_of[f] : -1;
+    if (k >= 0) {
+      struct digits dg;
+      double x;
+      int how = CELL_VALUE;
+      e = scan_digits(q, dec, &dg);
+      if (e != NULL && (*e == delim || *e == '\n'
+                        || (*e == '\r' && e[1] == '\n'))) {
+        x = digits_value(&dg);
+      } else {
+        e = field_end(q, delim);
+        if (e == NULL || cell_value(in, q, (size_t)(e - q), k == 0, &x,
+                                    &how) != 0)
+          return NULL;
+      }
+      if (k == 0) {
+        t_missing = how == CELL_MISSING;
+        t = x;
+      } else {
+        y[k - 1] = how == CELL_MISSING ? NAN
+                   : temp_value(in, x, units[k - 1]);
+      }
+    } else {
+      e = field_end(q, delim);
+      if (e == NULL || (f >= ncol && !all_blank(q, e)))
+        return NULL;
+    }
+    q = e;
+    if (*q != delim)
+      break;
+    q++;
+  }
+  if (f + 1 < in->min_fields)
+    return NULL;                   /* short: the general reader says so */
+  q += *q == '\r' ? 2 : 1;
+  w->slot++;
+  if (t_missing) {
+    c->rows_no_time++;
+    c->holes++;
+    fs->t[slot] = NAN;
+    return q;
+  }
+  t *= in->time_scale;
+  fs->t[slot] = t;
+  if (c->have_t && !(t > c->last_t))
+    c->increasing = 0;
+  if (!c->have_t) {
+    c->have_t = 1;
+    c->first_t = t;
+  }
+  c->last_t = t;
+  for (size_t k = 0; k < nch; k++) {
+    double v = y[k];
+    fs->v[k][slot] = v;
+    if (isnan(v)) {
+      w->missing[k]++;
+      continue;
+    }
+    present++;
+    w->lo[k] = v < w->lo[k] ? v : w->lo[k];
+    w->hi[k] = v > w->hi[k] ? v : w->hi[k];
+  }
+  if (present == 0)
+    c->all_missing++;
+  return q;
+}
+
+/*
  * One line at p (a '\n' follows somewhere): fills its slot. Returns the
  * start of the next line, or NULL to hand the file to the general reader.
  */
@@ -424,6 +515,8 @@ static const char *parse_line(struct worker *w, const char *p)
   }
   q = p;
   c->rows_read++;
+  if (!in->clock && !in->iso)
+    return parse_plain(w, q, slot);
   /* every cell's how[] is set below: the time and temperature columns
    * come before min_fields, and a shorter row is refused */
   /* first the fields' text; the shortcut's numbers stay integers here so
