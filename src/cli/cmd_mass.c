@@ -267,9 +267,9 @@ static void print_text(const struct opts *o, const char *solvent,
   if (isfinite(o->tf_blank) && isfinite(o->tf_sample))
     printf("  freezing points    %.4f C (blank), %.4f C (sample)\n",
            o->tf_blank, o->tf_sample);
-  printf("  depression dT      %.*f K  (u %.2g K)\n", decimals_for(u_dt),
+  printf("  depression dT      %.*f K  (u %#.2g K)\n", decimals_for(u_dt),
          in->depression_k.value, u_dt);
-  printf("  Kf used            %.4g K kg/mol  (u %.2g; %s)\n", in->kf.value,
+  printf("  Kf used            %.4g K kg/mol  (u %#.2g; %s)\n", in->kf.value,
          ff_quantity_u(&in->kf), kf_source);
   if (isfinite(kf_calc))
     printf("  Kf from constants  %.4g K kg/mol  (R Tf^2 M / dH_fus, table "

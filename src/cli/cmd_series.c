@@ -152,7 +152,7 @@ static const char *num(char *buf, size_t n, int dec, double x)
   if (!isfinite(x))
     snprintf(buf, n, "-");
   else if (dec < 0)
-    snprintf(buf, n, "%.2g", x);
+    snprintf(buf, n, "%#.2g", x);
   else
     snprintf(buf, n, "%.*f", dec, x);
   return buf;
@@ -346,7 +346,7 @@ static void print_solute(const struct ff_series_solute *g)
     printf("  degree of dissociation alpha = %s\n",
            pm(a, sizeof a, g->reg.alpha, g->reg.u_alpha));
   if (g->has_mc)
-    printf("  Monte Carlo u(i at m -> 0): %.2g (propagated %.2g; %zu of %zu "
+    printf("  Monte Carlo u(i at m -> 0): %#.2g (propagated %#.2g; %zu of %zu "
            "refits)\n", g->mc.sd, g->mc.u_propagated, g->mc.n_ok,
            g->mc.n_draws);
 }
