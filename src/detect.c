@@ -175,23 +175,44 @@ size_t dd_index_at(const struct dctx *c, double t_s)
   return lo < c->n ? lo : c->n - 1;
 }
 
+/* What the pass over the input learns for the noise estimate: the largest
+ * |reading|, the smallest change (between neighbours; +inf when none)
+ * and how many changes are 0 (for quantum()). */
+struct input_scan {
+  double ymax, step;
+  size_t zeros;
+};
+
 static int check_input(const double *t, const double *y, size_t n,
-                       struct ff_diag *d)
+                       struct input_scan *sc, struct ff_diag *d)
 {
   /* One pass without a branch that asks whether all is well (a double is
    * infinite or NaN when its exponent bits are all set); the loop below
-   * finds the first bad reading only when it is not. */
+   * finds the first bad reading only when it is not. The same pass takes
+   * what the noise estimate needs, meaningful once all is well. */
   const uint64_t e = 0x7ff0000000000000u;
-  uint64_t bad = 0;
+  uint64_t bad, a0, b0;
   int ok = 1;
+  double ymax = fabs(y[0]), step = INFINITY;
+  size_t zeros = 0;
 
-  for (size_t i = 0; i < n; i++) {
+  memcpy(&a0, &t[0], sizeof a0);
+  memcpy(&b0, &y[0], sizeof b0);
+  bad = ((a0 & e) == e) | ((b0 & e) == e);
+  for (size_t i = 1; i < n; i++) {
     uint64_t a, b;
+    double s = fabs(y[i] - y[i - 1]), ay = fabs(y[i]);
     memcpy(&a, &t[i], sizeof a);
     memcpy(&b, &y[i], sizeof b);
     bad |= ((a & e) == e) | ((b & e) == e);
-    ok &= t[i] > t[i > 0 ? i - 1 : 0] || i == 0;
+    ok &= t[i] > t[i - 1];
+    zeros += !(s > 0.0);
+    step = s > 0.0 && s < step ? s : step;
+    ymax = ay > ymax ? ay : ymax;   /* finite: fmax without a call */
   }
+  sc->ymax = ymax;
+  sc->step = step;
+  sc->zeros = zeros;
   if (ok && !bad)
     return FF_OK;
   for (size_t i = 0; i < n; i++) {
@@ -211,17 +232,6 @@ static int check_input(const double *t, const double *y, size_t n,
  * if (nearly) every change is a whole multiple of it, or if many successive
  * readings repeat exactly. 0 when the readings look continuous.
  */
-/* The whole number nearest q >= 0 (ties to even, where round() takes
- * them away from zero: either way 0.5 away, which is all quantum() asks),
- * without a library call per reading. q >= 2^52 is whole already, and
- * +inf stays +inf. */
-static inline double near_int(double q)
-{
-  const double two52 = 4503599627370496.0;
-
-  return q < two52 ? (q + two52) - two52 : q;
-}
-
 static double quantum(const struct dctx *c, double step, size_t zeros)
 {
   size_t bad = 0;
@@ -235,7 +245,7 @@ static double quantum(const struct dctx *c, double step, size_t zeros)
   double inv = 1.0 / step;
   for (size_t i = 1; i < c->n; i++) {
     double q = fabs(c->y[i] - c->y[i - 1]) * inv;
-    bad += fabs(q - near_int(q)) > 0.01;
+    bad += fabs(q - dd_near_int(q)) > 0.01;
   }
   return bad <= c->n / 100 ? step : 0.0;
 }
@@ -257,71 +267,77 @@ static double est_value(const struct dctx *c, int which, size_t i)
 /* Channels longer than this take their medians without a copy. */
 #define MEDIAN_COPY_MAX 65536
 
-/* Median of est_value over [i0, i1) into *out: the middle value, or the
- * mean of the two middle values, as gsl_stats_median gives it. cnt:
- * DD_SEL_RADIX counters; NULL: through a copy (short channels). -1 when
- * out of memory. */
+/* Median of est_value over [i0, i1) into *out through a copy (short
+ * channels, or a NaN among the values): the middle value, or the mean of
+ * the two middle values, as gsl_stats_median gives it. -1 when out of
+ * memory. */
 static int est_median(const struct dctx *c, int which, size_t i0,
-                      size_t i1, size_t *cnt, double *out)
+                      size_t i1, double *out)
 {
-  size_t m = i1 - i0, lhs = (m - 1) / 2, rhs = m / 2;
+  size_t m = i1 - i0;
+  double *v = malloc(m * sizeof *v);
 
-  if (cnt == NULL) {
-    double *v = malloc(m * sizeof *v);
-    if (v == NULL)
-      return -1;
-    for (size_t i = i0; i < i1; i++)
-      v[i - i0] = est_value(c, which, i);
-    *out = dd_median(v, m);
-    free(v);
-    return 0;
-  }
-  {
-    double v[2];
-    if (dd_select_pair(c->t, c->y, which, i0, i1, lhs, rhs, cnt, v) != 0)
-      return -1;
-    *out = lhs != rhs ? (v[0] + v[1]) / 2.0 : v[0];
-  }
+  if (v == NULL)
+    return -1;
+  for (size_t i = i0; i < i1; i++)
+    v[i - i0] = est_value(c, which, i);
+  *out = dd_median(v, m);
+  free(v);
   return 0;
 }
 
-static int estimate_noise(struct dctx *c)
+static int estimate_noise(struct dctx *c, const struct input_scan *sc)
 {
-  size_t n = c->n, zeros = 0, *cnt = NULL;
-  double step = INFINITY, med;
+  size_t n = c->n, zeros = sc->zeros, *cnt = NULL;
+  double step = sc->step, med;
   int plain = 1, st;
 
   /* Second differences of finite readings may overflow to +inf but are
-   * never NaN; a NaN would take the copy. The same pass finds the smallest
-   * change and counts the repeats (for quantum()). */
-  c->ymax = fabs(c->y[0]);
-  for (size_t i = 1; i < n; i++) {
-    double s = fabs(c->y[i] - c->y[i - 1]), a = fabs(c->y[i]);
-    zeros += !(s > 0.0);
-    step = s > 0.0 && s < step ? s : step;
-    c->ymax = a > c->ymax ? a : c->ymax;   /* finite: fmax without a call */
-  }
+   * never NaN; a NaN would take the copy. check_input found the smallest
+   * change and counted the repeats (for quantum()). */
+  c->ymax = sc->ymax;
   /* Only a reading beyond a quarter of the largest double can make one
    * overflow (4 max|y| bounds it); look for NaN then only. */
   if (!(c->ymax < 0.25 * DBL_MAX))
     for (size_t i = 1; i + 1 < n; i++)
       plain &= !isnan(est_value(c, 0, i));
   if (n > MEDIAN_COPY_MAX && plain) {
+    /* Long channels: both medians, and the count of quantum()'s test when
+     * it is needed, in one pass. */
+    size_t r[2][2] = { { (n - 3) / 2, (n - 2) / 2 },
+                       { (n - 2) / 2, (n - 1) / 2 } }, off = 0;
+    double v[2][2], inv = 0.0;
+    int count = c->p->resolution_k <= 0.0 && isfinite(step) && step > 0.0
+                && zeros <= n / 5;
+    if (count)   /* as quantum() forms it */
+      inv = 1.0 / step;
     cnt = malloc(DD_SEL_RADIX * sizeof *cnt);
     if (cnt == NULL)
       return -1;
+    st = dd_select_medians(c->t, c->y, n, (const size_t (*)[2])r, inv, &off,
+                           cnt, v);
+    free(cnt);
+    if (st != 0)
+      return -1;
+    med = r[0][0] != r[0][1] ? (v[0][0] + v[0][1]) / 2.0 : v[0][0];
+    c->sigma = 1.4826 * med / sqrt(6.0);
+    c->dt = r[1][0] != r[1][1] ? (v[1][0] + v[1][1]) / 2.0 : v[1][0];
+    if (c->p->resolution_k > 0.0)
+      c->res = c->p->resolution_k;
+    else if (count)
+      c->res = off <= n / 100 ? step : 0.0;
+    else
+      c->res = quantum(c, step, zeros);   /* decided without the loop */
+  } else {
+    if (est_median(c, 0, 1, n - 1, &med) != 0
+        || est_median(c, 1, 1, n, &c->dt) != 0)
+      return -1;
+    c->sigma = 1.4826 * med / sqrt(6.0);
+    if (c->p->resolution_k > 0.0)
+      c->res = c->p->resolution_k;
+    else
+      c->res = quantum(c, step, zeros);
   }
-  st = est_median(c, 0, 1, n - 1, cnt, &med);
-  c->sigma = 1.4826 * med / sqrt(6.0);
-  if (st == 0)
-    st = est_median(c, 1, 1, n, cnt, &c->dt);
-  free(cnt);
-  if (st != 0)
-    return -1;
-  if (c->p->resolution_k > 0.0)
-    c->res = c->p->resolution_k;
-  else
-    c->res = quantum(c, step, zeros);
   /* Quantisation alone leaves a rectangular error of sd res/sqrt(12). */
   if (c->sigma < c->res / sqrt(12.0))
     c->sigma = c->res / sqrt(12.0);
@@ -362,6 +378,54 @@ static double smooth_at(const struct dctx *c, size_t i)
  * each value is the same number; the edges of the channel go through
  * smooth_at itself.
  */
+#if defined(__SSE2__) && defined(__x86_64__) && defined(__GNUC__)
+#include <immintrin.h>
+#define SMOOTH_AVX2 32         /* sums formed together by smooth_avx2 */
+/*
+ * The whole windows of [a, b) that fill SMOOTH_AVX2 sums together, on a
+ * processor with AVX2 (four sums a register, eight registers): lane l of
+ * register r at step q adds reading j - h + q + 4 r + l, the q-th term of
+ * sum 4 r + l, from 0.0, left to right, as smooth_at does; IEEE addition
+ * and division lane by lane, so the same numbers. Returns where it
+ * stopped.
+ */
+__attribute__((target("avx2")))
+static size_t smooth_avx2(const struct dctx *c, size_t i0, size_t a,
+                          size_t b, double *out)
+{
+  size_t h = c->h, wn = 2 * h + 1, j;
+  __m256d w4 = _mm256_set1_pd((double)wn);
+
+  for (j = a; j + SMOOTH_AVX2 <= b; j += SMOOTH_AVX2) {
+    const double *y = c->y + (j - h);
+    double *o = out + (j - i0);
+    __m256d s0 = _mm256_setzero_pd(), s1 = s0, s2 = s0, s3 = s0, s4 = s0,
+            s5 = s0, s6 = s0, s7 = s0;
+    for (size_t q = 0; q < wn; q++) {
+      const double *yq = y + q;
+      s0 = _mm256_add_pd(s0, _mm256_loadu_pd(yq));
+      s1 = _mm256_add_pd(s1, _mm256_loadu_pd(yq + 4));
+      s2 = _mm256_add_pd(s2, _mm256_loadu_pd(yq + 8));
+      s3 = _mm256_add_pd(s3, _mm256_loadu_pd(yq + 12));
+      s4 = _mm256_add_pd(s4, _mm256_loadu_pd(yq + 16));
+      s5 = _mm256_add_pd(s5, _mm256_loadu_pd(yq + 20));
+      s6 = _mm256_add_pd(s6, _mm256_loadu_pd(yq + 24));
+      s7 = _mm256_add_pd(s7, _mm256_loadu_pd(yq + 28));
+    }
+    _mm256_storeu_pd(o, _mm256_div_pd(s0, w4));
+    _mm256_storeu_pd(o + 4, _mm256_div_pd(s1, w4));
+    _mm256_storeu_pd(o + 8, _mm256_div_pd(s2, w4));
+    _mm256_storeu_pd(o + 12, _mm256_div_pd(s3, w4));
+    _mm256_storeu_pd(o + 16, _mm256_div_pd(s4, w4));
+    _mm256_storeu_pd(o + 20, _mm256_div_pd(s5, w4));
+    _mm256_storeu_pd(o + 24, _mm256_div_pd(s6, w4));
+    _mm256_storeu_pd(o + 28, _mm256_div_pd(s7, w4));
+  }
+  return j;
+}
+
+#endif
+
 static void smooth_block(const struct dctx *c, size_t i0, size_t i1,
                          double *out)
 {
@@ -376,6 +440,10 @@ static void smooth_block(const struct dctx *c, size_t i0, size_t i1,
     b = a;
   for (j = i0; j < a; j++)
     out[j - i0] = smooth_at(c, j);
+#ifdef SMOOTH_AVX2
+  if (__builtin_cpu_supports("avx2"))   /* reads a word set at start-up */
+    a = smooth_avx2(c, i0, a, b, out);
+#endif
   for (j = a; j + SMOOTH_LANES <= b; j += SMOOTH_LANES) {
     const double *y = c->y + (j - h);
     double *o = out + (j - i0);
@@ -1309,6 +1377,7 @@ int ff_detect_run(const double *t_s, const double *temp_c, size_t n,
 {
   static const struct ff_detect_params defaults = FF_DETECT_PARAMS_DEFAULT;
   struct dctx c = { 0 };
+  struct input_scan scan;
   size_t from = 0, seg0 = 0;
   unsigned cycle = 0;
   int st;
@@ -1318,7 +1387,7 @@ int ff_detect_run(const double *t_s, const double *temp_c, size_t n,
   if (n < MIN_POINTS)
     return ff_diag_set(d, FF_EUNTRUSTED, NULL, "only %zu readings: at least "
                        "%d are needed to find a freeze", n, MIN_POINTS);
-  if ((st = check_input(t_s, temp_c, n, d)) != FF_OK)
+  if ((st = check_input(t_s, temp_c, n, &scan, d)) != FF_OK)
     return st;
   c.t = t_s;
   c.y = temp_c;
@@ -1336,7 +1405,7 @@ int ff_detect_run(const double *t_s, const double *temp_c, size_t n,
     c.lat = WATER_DH_FUS / WATER_M;
     c.tf0 = 0.0;               /* ice point */
   }
-  if (estimate_noise(&c) != 0 || smooth(&c) != 0) {
+  if (estimate_noise(&c, &scan) != 0 || smooth(&c) != 0) {
     smooth_free(&c);
     return ff_diag_set(d, FF_EIO, NULL, "out of memory");
   }

@@ -110,4 +110,25 @@ static inline double dd_sel_value(const double *t, const double *y,
 int dd_select_pair(const double *t, const double *y, int which, size_t i0,
                    size_t i1, size_t r0, size_t r1, size_t *cnt, double v[2]);
 
+/* Both medians of a channel of n readings in one pass (which 0 over
+ * [1, n - 1), which 1 over [1, n); ranks r[which][0] <= r[which][1],
+ * values into v[which], as dd_select_pair gives them); when inv > 0 the
+ * same pass counts into *off the changes |y[i] - y[i-1]| * inv more than
+ * 0.01 from a whole number (detect.c's quantisation test). cnt:
+ * DD_SEL_RADIX counters. Returns 0, or -1 out of memory. */
+int dd_select_medians(const double *t, const double *y, size_t n,
+                      const size_t r[2][2], double inv, size_t *off,
+                      size_t *cnt, double v[2][2]);
+
+/* The whole number nearest q >= 0 (ties to even, where round() takes
+ * them away from zero: either way 0.5 away, which is all the quantisation
+ * test asks), without a library call per reading. q >= 2^52 is whole
+ * already, and +inf stays +inf. */
+static inline double dd_near_int(double q)
+{
+  const double two52 = 4503599627370496.0;
+
+  return q < two52 ? (q + two52) - two52 : q;
+}
+
 #endif /* FF_DETECT_IMPL_H */

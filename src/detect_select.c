@@ -63,72 +63,67 @@ static double radix_rank(const double *t, const double *y, int which,
 #define SEL_RUN 256
 
 /*
- * One pass that settles ranks r0 <= r1 when the values bracketed by keys
- * [klo, khi] hold them: counts the values below klo, equal to klo and to
- * khi, and gathers those strictly between (at most cap) to select among
- * them. Returns 1 with v filled, 0 when a rank lies outside the bracket or
- * the gathered values overflow cap, -1 when out of memory.
+ * The count of one pass that settles ranks r0 <= r1 when the values
+ * bracketed by keys [klo, klo + span] hold them: the values below klo,
+ * equal to klo and to the top key, and those strictly between gathered (at
+ * most cap) to select among them.
  */
-static int bracket_pass(const double *t, const double *y, int which,
-                        size_t i0, size_t i1, size_t r0, size_t r1,
-                        uint64_t klo, uint64_t khi, size_t cap, double v[2])
-{
-  size_t nlt = 0, nlo = 0, nhi = 0, g = 0;
-  uint64_t span = khi - klo;
-  double *buf = malloc((cap > 0 ? cap : 1) * sizeof *buf);
+struct bracket {
+  uint64_t klo, span;
+  size_t nlt, nlo, nhi, g, cap, r0, r1;
+  double *buf;
+};
 
-  if (buf == NULL)
-    return -1;
-  for (size_t i = i0; i < i1; i++) {
-    double x = dd_sel_value(t, y, which, i);
-    uint64_t k = key_of(x);
-    nlt += k < klo;
-    if (k - klo <= span) {     /* klo <= k <= khi, one test */
-      if (k == klo)
-        nlo++;
-      else if (k == khi)
-        nhi++;
-      else if (g++ < cap)
-        buf[g - 1] = x;
-    }
+static inline void br_add(struct bracket *b, double x)
+{
+  uint64_t k = key_of(x);
+
+  b->nlt += k < b->klo;
+  if (k - b->klo <= b->span) { /* klo <= k <= khi, one test */
+    if (k == b->klo)
+      b->nlo++;
+    else if (k == b->klo + b->span)
+      b->nhi++;
+    else if (b->g++ < b->cap)
+      b->buf[b->g - 1] = x;
   }
-  if (g > cap || r0 < nlt || r1 >= nlt + nlo + g + nhi) {
-    free(buf);
-    return 0;
-  }
-  for (int j = 0; j < 2; j++) {
-    size_t q = (j == 0 ? r0 : r1) - nlt;
-    if (q < nlo)
-      v[j] = val_of(klo);
-    else if (q - nlo < g)
-      v[j] = gsl_stats_select(buf, 1, g, q - nlo);
+}
+
+/* After the pass: 1 with v filled, 0 when a rank lies outside the bracket
+ * or the gathered values overflowed cap. Frees the buffer. */
+static int br_finish(struct bracket *b, double v[2])
+{
+  int ok = !(b->g > b->cap || b->r0 < b->nlt
+             || b->r1 >= b->nlt + b->nlo + b->g + b->nhi);
+
+  for (int j = 0; ok && j < 2; j++) {
+    size_t q = (j == 0 ? b->r0 : b->r1) - b->nlt;
+    if (q < b->nlo)
+      v[j] = val_of(b->klo);
+    else if (q - b->nlo < b->g)
+      v[j] = gsl_stats_select(b->buf, 1, b->g, q - b->nlo);
     else
-      v[j] = val_of(khi);
+      v[j] = val_of(b->klo + b->span);
   }
-  free(buf);
-  return 1;
+  free(b->buf);
+  b->buf = NULL;
+  return ok;
 }
 
 /*
- * The values of ranks r0 <= r1 among dd_sel_value(t, y, which, i), i in
- * [i0, i1), into v[0] and v[1], exactly. A sample of SEL_SAMPLE values at
- * even spacing (runs of 256 neighbours) brackets the ranks (its own quantiles, widened by four
- * standard errors of a sample quantile and more); one pass over the
- * channel then counts what lies below the bracket and gathers what lies in
- * it (a few per cent of the values), and the ranks are selected among
- * those. The sample only chooses the bracket: when a rank falls outside it
- * (a chance of about 1e-4), a radix selection on the bit patterns, 16 bits
- * a pass, gives the value. cnt: SEL_RADIX counters. Returns 0, or -1 when
- * out of memory.
+ * The bracket of ranks r0 <= r1 among dd_sel_value(t, y, which, i), i in
+ * [i0, i1), from a sample of SEL_SAMPLE values at even spacing (runs of
+ * SEL_RUN neighbours): its own quantiles, widened by four standard errors
+ * of a sample quantile and more. 0, or -1 out of memory or bad ranks.
  */
-int dd_select_pair(const double *t, const double *y, int which, size_t i0,
-                   size_t i1, size_t r0, size_t r1, size_t *cnt, double v[2])
+static int br_setup(const double *t, const double *y, int which, size_t i0,
+                    size_t i1, size_t r0, size_t r1, struct bracket *b)
 {
   size_t m = i1 > i0 ? i1 - i0 : 0, s, gap, klo, khi, cap;
   double *smp, p0, p1, d, flo, fhi;
   uint64_t blo, bhi;
-  int st;
 
+  memset(b, 0, sizeof *b);
   if (m == 0 || r0 > r1 || r1 >= m)
     return -1;
   s = m < SEL_SAMPLE ? m : SEL_SAMPLE;
@@ -154,11 +149,101 @@ int dd_select_pair(const double *t, const double *y, int which, size_t i0,
         + 1024;
   if (cap > m)
     cap = m;
-  st = bracket_pass(t, y, which, i0, i1, r0, r1, blo, bhi, cap, v);
-  if (st != 0)
-    return st < 0 ? -1 : 0;
+  b->klo = blo;
+  b->span = bhi - blo;
+  b->cap = cap;
+  b->r0 = r0;
+  b->r1 = r1;
+  b->buf = malloc((cap > 0 ? cap : 1) * sizeof *b->buf);
+  return b->buf != NULL ? 0 : -1;
+}
+
+/*
+ * The values of ranks r0 <= r1 among dd_sel_value(t, y, which, i), i in
+ * [i0, i1), into v[0] and v[1], exactly. A sample of SEL_SAMPLE values at
+ * even spacing (runs of 256 neighbours) brackets the ranks (its own quantiles, widened by four
+ * standard errors of a sample quantile and more); one pass over the
+ * channel then counts what lies below the bracket and gathers what lies in
+ * it (a few per cent of the values), and the ranks are selected among
+ * those. The sample only chooses the bracket: when a rank falls outside it
+ * (a chance of about 1e-4), a radix selection on the bit patterns, 16 bits
+ * a pass, gives the value. cnt: SEL_RADIX counters. Returns 0, or -1 when
+ * out of memory.
+ */
+int dd_select_pair(const double *t, const double *y, int which, size_t i0,
+                   size_t i1, size_t r0, size_t r1, size_t *cnt, double v[2])
+{
+  struct bracket b;
+
+  if (br_setup(t, y, which, i0, i1, r0, r1, &b) != 0) {
+    free(b.buf);
+    return -1;
+  }
+  for (size_t i = i0; i < i1; i++)
+    br_add(&b, dd_sel_value(t, y, which, i));
+  if (br_finish(&b, v))
+    return 0;
   v[0] = radix_rank(t, y, which, i0, i1, r0, cnt, 0, 0, 64 - SEL_BITS);
   v[1] = r1 == r0 ? v[0] : radix_rank(t, y, which, i0, i1, r1, cnt, 0, 0,
                                       64 - SEL_BITS);
+  return 0;
+}
+
+/*
+ * Both medians' ranks of a channel of n readings in one pass: which 0 over
+ * [1, n - 1) and which 1 over [1, n), ranks r[which][0..1], values into
+ * v[which]; the same values as dd_select_pair gives each. When inv > 0 the
+ * same pass counts into *off the changes i in [1, n) whose
+ * |y[i] - y[i-1]| * inv lies more than 0.01 from a whole number (as the
+ * quantisation test of detect.c counts them). 0, or -1 out of memory.
+ */
+int dd_select_medians(const double *t, const double *y, size_t n,
+                      const size_t r[2][2], double inv, size_t *off,
+                      size_t *cnt, double v[2][2])
+{
+  struct bracket b0, b1;
+  size_t bad = 0;
+  int ok0, ok1;
+
+  if (n < 3)
+    return -1;
+  if (br_setup(t, y, 0, 1, n - 1, r[0][0], r[0][1], &b0) != 0
+      || br_setup(t, y, 1, 1, n, r[1][0], r[1][1], &b1) != 0) {
+    free(b0.buf);
+    free(b1.buf);
+    return -1;
+  }
+  if (inv > 0.0) {
+    for (size_t i = 1; i + 1 < n; i++) {
+      double q = fabs(y[i] - y[i - 1]) * inv;
+      bad += fabs(q - dd_near_int(q)) > 0.01;
+      br_add(&b0, dd_sel_value(t, y, 0, i));
+      br_add(&b1, dd_sel_value(t, y, 1, i));
+    }
+    {
+      double q = fabs(y[n - 1] - y[n - 2]) * inv;
+      bad += fabs(q - dd_near_int(q)) > 0.01;
+    }
+  } else {
+    for (size_t i = 1; i + 1 < n; i++) {
+      br_add(&b0, dd_sel_value(t, y, 0, i));
+      br_add(&b1, dd_sel_value(t, y, 1, i));
+    }
+  }
+  br_add(&b1, dd_sel_value(t, y, 1, n - 1));
+  *off = bad;
+  ok0 = br_finish(&b0, v[0]);
+  ok1 = br_finish(&b1, v[1]);
+  /* A rank outside its bracket (a chance of about 1e-4): the exact
+   * radix selection for that median alone. */
+  for (int w = 0; w < 2; w++) {
+    size_t i1 = w == 0 ? n - 1 : n;
+    if (w == 0 ? ok0 : ok1)
+      continue;
+    v[w][0] = radix_rank(t, y, w, 1, i1, r[w][0], cnt, 0, 0, 64 - SEL_BITS);
+    v[w][1] = r[w][1] == r[w][0] ? v[w][0]
+              : radix_rank(t, y, w, 1, i1, r[w][1], cnt, 0, 0,
+                           64 - SEL_BITS);
+  }
   return 0;
 }

@@ -66,6 +66,42 @@ static void check_channel(const double *t, const double *y, size_t n)
                 r0, r1);
     }
   }
+  /* Both medians in one pass, with and without the count of changes off
+   * a whole number of the smallest step, against the sorted copies and a
+   * plain count. */
+  for (int with = 0; with < 2; with++) {
+    size_t r[2][2] = { { (n - 3) / 2, (n - 2) / 2 },
+                       { (n - 2) / 2, (n - 1) / 2 } }, off = 12345, bad = 0;
+    double v[2][2], step = INFINITY, inv = 0.0;
+    for (size_t i = 1; i < n; i++) {
+      double s = fabs(y[i] - y[i - 1]);
+      if (s > 0.0 && s < step)
+        step = s;
+    }
+    if (with && isfinite(step)) {
+      inv = 1.0 / step;
+      for (size_t i = 1; i < n; i++) {
+        double q = fabs(y[i] - y[i - 1]) * inv;
+        bad += fabs(q - round(q)) > 0.01;
+      }
+    }
+    cr_assert_eq(dd_select_medians(t, y, n, (const size_t (*)[2])r, inv,
+                                   &off, cnt, v), 0);
+    for (int which = 0; which < 2; which++) {
+      size_t i1 = which == 0 ? n - 1 : n;
+      for (int k = 0; k < 2; k++) {
+        double ref = ref_rank(t, y, which, 1, i1, r[which][k]);
+        cr_assert(same_bits(v[which][k], ref), "medians: which %d rank %zu "
+                  "of %zu: %.17g, sorted %.17g", which, r[which][k], i1 - 1,
+                  v[which][k], ref);
+      }
+    }
+    if (inv > 0.0)
+      cr_assert_eq(off, bad, "changes off the step: %zu, counted %zu", off,
+                   bad);
+    else
+      cr_assert_eq(off, 0);
+  }
   free(cnt);
 }
 
