@@ -1011,9 +1011,14 @@ static const char *run_name(const void *ctx, size_t k)
   return ((const struct ff_plot_overview_fig *)ctx)->runs[k].run;
 }
 
+/* Panel (d) labels a solute by its short label (a formula) when given:
+ * long names would be cut to a few letters under the rotated ticks. */
 static const char *limit_name(const void *ctx, size_t k)
 {
-  return ((const struct ff_plot_overview_fig *)ctx)->limits[k].solute;
+  const struct ff_plot_limit *l =
+    &((const struct ff_plot_overview_fig *)ctx)->limits[k];
+
+  return l->label != NULL && l->label[0] != '\0' ? l->label : l->solute;
 }
 
 /*
@@ -1092,7 +1097,9 @@ static void overview_script(FILE *gp, const struct ff_plot_overview_fig *f,
         "  set xrange [0:m_max]\n"
         "  set xtics m_tic\n"
         "  set key inside top left Left reverse noenhanced\n", gp);
-  yrange_with_room(gp, "y", ra, 0.1 + 0.1 * (double)n_dep);
+  /* the key (one line per solute plus the ideal line) sits over the
+   * data's top: about 0.12 of the span per key line clears it */
+  yrange_with_room(gp, "y", ra, 0.15 + 0.12 * (double)(n_dep + 1));
   for (g = 0; g < ng; g++) {
     if (!gr[g].has_dep)
       continue;

@@ -394,8 +394,9 @@ static struct ff_plot_overview_fig make_overview(struct overview_data *o,
       k == 0 ? 0.011 : -1.853 * 1.8 * m, 0.0015, m,
       k == 0 ? NAN : 1.853 * 1.8 * m, 0.002, k == 0 ? NAN : 1.8, 0.03 };
   }
+  /* the short label reaches a tick label: hostile too */
   o->lim[0] = (struct ff_plot_limit){ "salt X", 2.0, 1.93, 1.90, 1.96,
-                                      2 * 1.853 };
+                                      2 * 1.853, hostile };
   memset(&f, 0, sizeof f);
   f.name = "overview";
   f.title = hostile;

@@ -151,6 +151,8 @@ struct ff_plot_limit {
   double particles;            /* nu (full dissociation); NaN: unknown */
   double i_limit, ci_lo, ci_hi;        /* preferred model, 95 % interval */
   double ideal_slope_k_kg_mol; /* Kf * nu for the depression panel; NaN */
+  const char *label;           /* short tick label for the limits panel
+                                  (e.g. the formula); NULL: solute */
 };
 
 /* A whole series on one page (2 x 2 panels). */

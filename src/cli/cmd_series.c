@@ -753,18 +753,42 @@ static int fig_unknown(struct ff_plot_set *ps, const struct ff_series *s,
   return st;
 }
 
+/* The overview's short label of a solute: the formula of its first run
+ * without the hydrate water ("CaCl2*2H2O" -> "CaCl2"), when the sheet gives
+ * one and it is shorter than the name; "" otherwise (the name is used). */
+static void short_label(const struct ff_series *s,
+                        const struct ff_series_solute *g, char *out, size_t n)
+{
+  const char *f;
+  size_t len;
+
+  out[0] = '\0';
+  if (g->n == 0)
+    return;
+  f = s->sheet->row[s->runs[g->runs[0]].row].formula;
+  len = strcspn(f, "*.");
+  if (strstr(f, "\xc2\xb7") != NULL && (size_t)(strstr(f, "\xc2\xb7") - f) < len)
+    len = (size_t)(strstr(f, "\xc2\xb7") - f);   /* the middle dot */
+  if (len == 0 || len >= strlen(g->solute) || len >= n)
+    return;
+  memcpy(out, f, len);
+  out[len] = '\0';
+}
+
 static int fig_overview(struct ff_plot_set *ps, const struct ff_series *s,
                         struct ff_diag *d)
 {
   struct ff_plot_run *runs = calloc(s->n_runs + 1, sizeof *runs);
   struct ff_plot_limit *lim = calloc(s->n_solutes + 1, sizeof *lim);
+  char (*labels)[32] = calloc(s->n_solutes + 1, sizeof *labels);
   struct ff_plot_overview_fig f = { 0 };
   size_t nr = 0, nl = 0;
   int st;
 
-  if (runs == NULL || lim == NULL) {
+  if (runs == NULL || lim == NULL || labels == NULL) {
     free(runs);
     free(lim);
+    free(labels);
     return ff_diag_set(d, FF_EIO, NULL, "out of memory");
   }
   for (size_t k = 0; k < s->n_runs; k++) {
@@ -788,10 +812,13 @@ static int fig_overview(struct ff_plot_set *ps, const struct ff_series *s,
     const struct ff_fit *fit = &g->reg.fit[g->reg.preferred];
     if (fit->limit_fixed && g->reg.has_particles)
       fit = &g->reg.fit[g->reg.particles_model];
-    lim[nl++] = (struct ff_plot_limit){
+    lim[nl] = (struct ff_plot_limit){
       g->solute, g->particles_known ? (double)g->particles.nu : NAN,
       fit->i_limit, fit->ci_limit[0], fit->ci_limit[1],
-      g->particles_known ? g->kf_k_kg_mol * g->particles.nu : NAN };
+      g->particles_known ? g->kf_k_kg_mol * g->particles.nu : NAN, NULL };
+    short_label(s, g, labels[nl], sizeof labels[nl]);
+    lim[nl].label = labels[nl];
+    nl++;
   }
   f.name = "overview";
   f.title = "series overview";
@@ -802,6 +829,7 @@ static int fig_overview(struct ff_plot_set *ps, const struct ff_series *s,
   st = nr > 0 ? ff_plot_add_overview(ps, &f, d) : FF_OK;
   free(runs);
   free(lim);
+  free(labels);
   return st;
 }
 
