@@ -46,6 +46,22 @@
 #define FAST_NUMBERS 0
 #endif
 
+/* Eight digits per load needs a little-endian machine and the GCC/Clang
+ * bit scan; elsewhere the digits are read one at a time. */
+#if defined(__GNUC__) && defined(__BYTE_ORDER__) \
+    && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+#define FAST_SWAR 1
+#else
+#define FAST_SWAR 0
+#endif
+
+/* The per-cell helpers belong inside the row loop. */
+#if defined(__GNUC__)
+#define FAST_INLINE inline __attribute__((always_inline))
+#else
+#define FAST_INLINE inline
+#endif
+
 /* Test hooks: chunk and block sizes (0 = the defaults), fast imports. */
 static size_t tune_chunk, tune_block;
 static atomic_ulong fast_done;
@@ -165,10 +181,15 @@ static size_t count_lf(const char *s, size_t n)
   return c;
 }
 
+/* Bytes of the file mapped at a time to count lines (pass 1). */
+#define FAST_MAP_WINDOW ((size_t)4 << 20)
+
 /*
  * Pass 1 for chunk i: counts the line starts it owns (a line starts at the
  * data offset and after every '\n' that is not the file's last byte) and
- * finds where its first one is.
+ * finds where its first one is. The file is mapped read-only a window at a
+ * time (counted in place, without copying it out of the page cache); where
+ * a map fails, the window is read with pread.
  */
 static void count_chunk(void *ctx, size_t i)
 {
@@ -177,7 +198,11 @@ static void count_chunk(void *ctx, size_t i)
   size_t d0 = fs->in->data_offset;
   size_t lo = i == 0 ? d0 : c->lo - 1, hi = c->hi - 1;
   size_t cap = block_size(), lines = 0;
-  char *buf;
+  const size_t page = (size_t)sysconf(_SC_PAGESIZE);
+  const int fd = fs->in->fd;
+  /* the tests' small blocks make small windows too */
+  const size_t window = tune_block > 0 ? tune_block : FAST_MAP_WINDOW;
+  char *buf = NULL;
 
   if (i == 0) {
     c->has_start = 1;
@@ -190,34 +215,47 @@ static void count_chunk(void *ctx, size_t i)
     c->lines = lines;
     return;
   }
-  if (cap > hi - lo)
-    cap = hi - lo;
-  buf = malloc(cap);
-  if (buf == NULL) {
-    atomic_store(&fs->abandon, 1);
-    return;
-  }
   for (size_t off = lo; off < hi && !atomic_load(&fs->abandon);) {
-    size_t n = hi - off < cap ? hi - off : cap;
-    if (read_at(fs, buf, n, off) != 0) {
-      atomic_store(&fs->abandon, 1);
-      break;
+    size_t n = hi - off < window ? hi - off : window;
+    size_t a = page > 0 ? off - off % page : off;
+    const char *s = NULL;
+    void *map = MAP_FAILED;
+    if (fd >= 0 && page > 0)
+      map = mmap(NULL, off + n - a, PROT_READ, MAP_PRIVATE | MAP_POPULATE,
+                 fd, (off_t)a);
+    if (map != MAP_FAILED) {
+      s = (const char *)map + (off - a);
+    } else {
+      if (buf == NULL) {
+        if (cap > hi - lo)
+          cap = hi - lo;
+        buf = malloc(cap);
+      }
+      if (n > cap)
+        n = cap;
+      if (buf == NULL || read_at(fs, buf, n, off) != 0) {
+        atomic_store(&fs->abandon, 1);
+        break;
+      }
+      s = buf;
     }
     if (!c->has_start) {
-      const char *nl = memchr(buf, '\n', n);
+      const char *nl = memchr(s, '\n', n);
       if (nl != NULL) {
         c->has_start = 1;
-        c->start = off + (size_t)(nl - buf) + 1;
+        c->start = off + (size_t)(nl - s) + 1;
       }
     }
-    lines += count_lf(buf, n);
+    lines += count_lf(s, n);
+    if (map != MAP_FAILED)
+      munmap(map, off + n - a);
     off += n;
   }
   free(buf);
   c->lines = lines;
 }
 
-static double to_celsius(double x, enum ff_temp_unit u)
+static FAST_INLINE double to_celsius(double x, enum ff_temp_unit u)
 {
   switch (u) {
   case FF_UNIT_K: return x - 273.15;
@@ -233,26 +271,76 @@ struct digits {
   int neg;
 };
 
+/* Bytes a block buffer holds beyond its text (zeros), so that the
+ * digit scan below may load 8 bytes at any byte of a line. */
+#define FAST_PAD 16
+
+static const uint64_t pow10_int[] = {
+  1u, 10u, 100u, 1000u, 10000u, 100000u, 1000000u, 10000000u, 100000000u
+};
+
+/* The digits at s: how many lead s (x[i] - '0' < 10), and their value
+ * when there are fewer than 8. Loads the 8 bytes s[0..8) at once, so they
+ * must all be readable (the fast path's buffers have FAST_PAD zeros). */
+static FAST_INLINE unsigned digit_run(const char *s, uint64_t *val)
+{
+  const uint64_t zeros = 0x3030303030303030u, low7 = 0x7f7f7f7f7f7f7f7fu;
+  const uint64_t high = 0x8080808080808080u, add = 0x7676767676767676u;
+  uint64_t w, x, nd, v;
+  unsigned n;
+
+  memcpy(&w, s, 8);
+  x = w ^ zeros;                     /* a digit's byte is now 0..9 */
+  nd = (((x & low7) + add) | x) & high;   /* 0x80 where not a digit */
+  if (nd == 0)
+    return 8;                        /* 8 or more: the caller loops */
+  n = (unsigned)__builtin_ctzll(nd) >> 3;
+  if (n == 0) {
+    *val = 0;
+    return 0;
+  }
+  /* little-endian only (checked by the caller): the first digit in the
+   * lowest byte; the run moved up so zeros lead */
+  v = x << (64 - 8 * n);
+  v = ((v & 0x0f0f0f0f0f0f0f0fu) * 2561) >> 8;
+  v = ((v & 0x00ff00ff00ff00ffu) * 6553601) >> 16;
+  *val = ((v & 0x0000ffff0000ffffu) * 42949672960001u) >> 32;
+  return n;
+}
+
 /* Scans the shortcut's numbers (see ff_import_quick_number); NULL when the
- * text at p is not one. */
-static inline const char *scan_digits(const char *p, char decimal,
-                                      struct digits *dg)
+ * text at p is not one. The digits after the mark are read 8 bytes at a
+ * time, so 8 bytes past the number's end must be readable (see
+ * digit_run); the integer part, mostly short, one at a time. */
+static FAST_INLINE const char *scan_digits(const char *p, char decimal,
+                                           struct digits *dg)
 {
   const char *s = p, *d0;
   uint64_t m = 0;
   size_t nint, nfrac = 0;
   int neg = 0;
 
-  if (*s == '-' || *s == '+')
-    neg = *s++ == '-';
+  /* the sign without a branch: it changes from cell to cell */
+  neg = *s == '-';
+  s += neg | (*s == '+');
   d0 = s;
   while ((unsigned)((unsigned char)*s - '0') < 10)
     m = m * 10 + (uint64_t)(*s++ - '0');
   nint = (size_t)(s - d0);
   if (*s == decimal) {
     const char *f0 = ++s;
-    while ((unsigned)((unsigned char)*s - '0') < 10)
-      m = m * 10 + (uint64_t)(*s++ - '0');
+#if FAST_SWAR
+    uint64_t part;
+    unsigned r = digit_run(s, &part);
+    if (r < 8) {
+      m = m * pow10_int[r] + part;
+      s += r;
+    } else
+#endif
+    {
+      while ((unsigned)((unsigned char)*s - '0') < 10)
+        m = m * 10 + (uint64_t)(*s++ - '0');
+    }
     nfrac = (size_t)(s - f0);
   }
   if (!FAST_NUMBERS || nint + nfrac == 0 || nint + nfrac > 19
@@ -265,22 +353,42 @@ static inline const char *scan_digits(const char *p, char decimal,
 }
 
 /* The same one correctly rounded operation as ff_import_parse_number. */
-static inline double digits_value(const struct digits *dg)
+static FAST_INLINE double digits_value(const struct digits *dg)
 {
   double x = (double)dg->m;
 
+  uint64_t bits;
+
   x = dg->nfrac > 0 ? x / pow10_exact[dg->nfrac] : x * pow10_exact[0];
-  return dg->neg ? -x : x;
+  /* the sign bit set without a branch: the same bits as -x */
+  memcpy(&bits, &x, sizeof bits);
+  bits ^= (uint64_t)(dg->neg != 0) << 63;
+  memcpy(&x, &bits, sizeof x);
+  return x;
 }
 
 const char *ff_import_quick_number(const char *p, char decimal, double *out)
 {
+  /* the number's own bytes (sign, digits, mark) into a padded copy, the
+   * end marked by a byte that is none of them */
+  char tmp[64 + FAST_PAD];
   struct digits dg;
-  const char *e = scan_digits(p, decimal, &dg);
+  const char *e;
+  size_t n = 0;
 
-  if (e != NULL)
-    *out = digits_value(&dg);
-  return e;
+  while (n < 64 && (p[n] == '-' || p[n] == '+' || p[n] == decimal
+                    || (unsigned)((unsigned char)p[n] - '0') < 10)) {
+    tmp[n] = p[n];
+    n++;
+  }
+  if (n == 64)
+    return NULL;                     /* more than 19 digits anyway */
+  memset(tmp + n, 0, FAST_PAD);
+  e = scan_digits(tmp, decimal, &dg);
+  if (e == NULL)
+    return NULL;
+  *out = digits_value(&dg);
+  return p + (e - tmp);
 }
 
 /* The end of the field at p: the delimiter or the line end. NULL for what
@@ -373,7 +481,7 @@ static int clock_cell(const struct ff_fast_in *in, const char *s, size_t n,
   return 0;
 }
 
-static double temp_value(const struct ff_fast_in *in, double v,
+static FAST_INLINE double temp_value(const struct ff_fast_in *in, double v,
                          enum ff_temp_unit u)
 {
   if ((in->n_sentinels > 0 || fabs(v) > 998.0)
@@ -649,7 +757,8 @@ static void parse_chunk(void *ctx, size_t i)
   for (size_t k = 0; k < nch; k++)
     prefault(fs->v[k] + c->base, c->lines);
   cap = len < block_size() ? len : block_size();
-  buf = malloc(cap + 1);
+  /* room for a final '\n' and the digit scan's padding (zeros) */
+  buf = calloc(cap + 1 + FAST_PAD, 1);
   w.fs = fs;
   w.c = c;
   w.slot = c->base;
