@@ -309,9 +309,9 @@ static FAST_INLINE unsigned digit_run(const char *s, uint64_t *val)
 }
 
 /* Scans the shortcut's numbers (see ff_import_quick_number); NULL when the
- * text at p is not one. The digits after the mark are read 8 bytes at a
- * time, so 8 bytes past the number's end must be readable (see
- * digit_run); the integer part, mostly short, one at a time. */
+ * text at p is not one. Runs of digits are read 8 bytes at a time (a
+ * lone integer digit on its own), so 8 bytes past the number's end must be
+ * readable (see digit_run). */
 static FAST_INLINE const char *scan_digits(const char *p, char decimal,
                                            struct digits *dg)
 {
@@ -324,8 +324,26 @@ static FAST_INLINE const char *scan_digits(const char *p, char decimal,
   neg = *s == '-';
   s += neg | (*s == '+');
   d0 = s;
+#if FAST_SWAR
+  if ((unsigned)((unsigned char)s[0] - '0') < 10
+      && (unsigned)((unsigned char)s[1] - '0') >= 10) {
+    m = (uint64_t)(s[0] - '0');      /* one digit, as in most temperatures */
+    s++;
+  } else {
+    uint64_t part;
+    unsigned r = digit_run(s, &part);
+    if (r < 8) {
+      m = part;
+      s += r;
+    } else {
+      while ((unsigned)((unsigned char)*s - '0') < 10)
+        m = m * 10 + (uint64_t)(*s++ - '0');
+    }
+  }
+#else
   while ((unsigned)((unsigned char)*s - '0') < 10)
     m = m * 10 + (uint64_t)(*s++ - '0');
+#endif
   nint = (size_t)(s - d0);
   if (*s == decimal) {
     const char *f0 = ++s;
@@ -757,8 +775,9 @@ static void parse_chunk(void *ctx, size_t i)
   for (size_t k = 0; k < nch; k++)
     prefault(fs->v[k] + c->base, c->lines);
   cap = len < block_size() ? len : block_size();
-  /* room for a final '\n' and the digit scan's padding (zeros) */
-  buf = calloc(cap + 1 + FAST_PAD, 1);
+  /* room for a final '\n' and the digit scan's padding (zeroed after
+   * each read) */
+  buf = malloc(cap + 1 + FAST_PAD);
   w.fs = fs;
   w.c = c;
   w.slot = c->base;
@@ -788,6 +807,7 @@ static void parse_chunk(void *ctx, size_t i)
     }
     off += want;
     have = carry + want;
+    memset(buf + have, 0, FAST_PAD);
     if (off == c->end) {             /* the chunk's last lines */
       if (have > 0 && buf[have - 1] != '\n') {
         /* only the file's last line may lack its line end; a lone CR
