@@ -756,13 +756,10 @@ int dd_model_fit_blocks(double *fx, double *fy, size_t m, double *c0,
 }
 
 /* The smoothed readings of [s0, i1) the model reads, fetched once on first
- * use and shared by its three passes. */
+ * use and shared by its passes. */
 struct model_ys {
   double *v;
   size_t s0, n, got;
-  double *e;                   /* exp(-(t - t_ref) / tau) of the first pass */
-  size_t e_got;                /* how many of them */
-  double e_tau, e_tref;        /* for this tau and t_ref */
 };
 
 static double model_ys_at(const struct dctx *c, struct model_ys *m, size_t j)
@@ -774,58 +771,97 @@ static double model_ys_at(const struct dctx *c, struct model_ys *m, size_t j)
   return m->v[j];
 }
 
-/* One pass of the model with the liquid fit l: value, its fit u, delta,
- * u(delta), and x at the peak. Returns 0, or -1 with why in es. x: room
- * for i1 - s0 values. */
-static int model_pass(const struct dctx *c, const struct ff_event *e,
-                      const struct ff_liquid_fit *l, size_t s0, size_t i0,
-                      size_t i1, struct model_ys *ys, double *x,
-                      double out[5], struct ff_estimate *es)
+/* One integration of the energy balance: the liquid curve of a liquid fit
+ * (bath + amp exp(-(t - tref) / tau), as ff_event_eval_liquid gives it for
+ * kind 1), its frozen fractions x and how many were computed. */
+struct model_run {
+  double bath, amp, tref, tau, lnext;
+  double *x;
+  size_t nx;
+  int on, share;               /* still integrating; exponentials of run 0 */
+};
+
+static void model_run_init(struct model_run *r, const struct ff_liquid_fit *l,
+                           double *x)
 {
-  double tau = l->tau_s, c0, c1, c00, c11, *fx, *fy;
-  size_t n = i1 - s0, m = 0, pk, nx = n;
-  int ret = -1;
+  r->bath = l->bath_c;
+  r->amp = l->t0_c - l->bath_c;
+  r->tref = l->t_ref_s;
+  r->tau = l->tau_s;
+  r->x = x;
+  r->on = 1;
+}
 
-  /* The liquid curve as ff_event_eval_liquid gives it (kind 1). */
-  double bath = l->bath_c, amp = l->t0_c - l->bath_c, tref = l->t_ref_s;
+/*
+ * The frozen fraction x of each of the nr runs over the n readings from s0
+ * (x = 0 at s0), each stopping once x passes MODEL_X_STOP. The runs differ
+ * only in their liquid curve and each step waits on the previous x of its
+ * own run (a division deep), so they are stepped side by side: each x is
+ * the same arithmetic as a run alone would do. A run whose tau and t_ref
+ * are those of run 0 (bit for bit) takes run 0's exponentials, the same
+ * numbers.
+ */
+static void model_integrate(const struct dctx *c, size_t s0, size_t n,
+                            struct model_ys *ys, struct model_run *r, int nr)
+{
+  int active = 0;
 
-  /* The pass that moves only the bath temperature has the first pass's
-   * exponentials: the same numbers, kept. */
-  int reuse = memcmp(&tau, &ys->e_tau, sizeof tau) == 0
-              && memcmp(&tref, &ys->e_tref, sizeof tref) == 0,
-      keep = ys->e_got == 0;
-#define MODEL_EXP(j)                                                          \
-  (reuse && (j) < ys->e_got ? ys->e[j]                                        \
-   : (keep ? (ys->e[j] = exp(-(c->t[s0 + (j)] - tref) / tau))                 \
-           : exp(-(c->t[s0 + (j)] - tref) / tau)))
-
-  x[0] = 0.0;
-  /* The liquid curve at t[b] is the next step's value at t[a]. */
-  double lnext = n > 1 ? bath + amp * MODEL_EXP(0) : 0.0;
-  for (size_t j = 1; j < n; j++) {
+  for (int k = 0; k < nr; k++) {
+    r[k].share = k > 0 && memcmp(&r[k].tau, &r[0].tau, sizeof r[k].tau) == 0
+                 && memcmp(&r[k].tref, &r[0].tref, sizeof r[k].tref) == 0;
+    r[k].x[0] = 0.0;
+    r[k].nx = n;
+    /* The liquid curve at t[b] is the next step's value at t[a]. */
+    r[k].lnext = n > 1 ? r[k].bath + r[k].amp * exp(-(c->t[s0] - r[k].tref)
+                                                    / r[k].tau)
+                       : 0.0;
+    active += r[k].on;
+  }
+  for (size_t j = 1; j < n && active > 0; j++) {
     size_t a = s0 + j - 1, b = a + 1;
-    /* x is clamped to [0, 1] for the heat capacity; it never exceeds
-     * MODEL_X_STOP < 1 here (the loop stops first), so only 0 binds. */
-    double xc = x[j - 1] < 0.0 ? 0.0 : x[j - 1];
-    double la = lnext, lb = bath + amp * MODEL_EXP(j);
-    lnext = lb;
-    double da = model_ys_at(c, ys, j - 1) - la,
-           db = model_ys_at(c, ys, j) - lb;
-    double cap = (1.0 - xc) * c->cpl + xc * c->cps;
-    x[j] = x[j - 1] + (cap * (db - da)
-                       + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) / tau
-                       + (cap - c->cpl) * (lb - la)) / c->lat;
-    if (x[j] > MODEL_X_STOP) {
-      nx = j + 1;              /* x[j] is the last one computed */
-      break;
+    double ya = model_ys_at(c, ys, j - 1), yb = model_ys_at(c, ys, j), e0 = 0.0;
+    int need0 = r[0].on;
+    for (int k = 1; k < nr; k++)
+      need0 |= r[k].on && r[k].share;
+    if (need0)
+      e0 = exp(-(c->t[b] - r[0].tref) / r[0].tau);
+    for (int k = 0; k < nr; k++) {
+      struct model_run *q = &r[k];
+      double *x = q->x, tau = q->tau;
+      if (!q->on)
+        continue;
+      /* x is clamped to [0, 1] for the heat capacity; it never exceeds
+       * MODEL_X_STOP < 1 here (the run stops first), so only 0 binds. */
+      double xc = x[j - 1] < 0.0 ? 0.0 : x[j - 1];
+      double la = q->lnext,
+             lb = q->bath + q->amp * (k == 0 || q->share ? e0
+                                      : exp(-(c->t[b] - q->tref) / tau));
+      q->lnext = lb;
+      double da = ya - la, db = yb - lb;
+      double cap = (1.0 - xc) * c->cpl + xc * c->cps;
+      x[j] = x[j - 1] + (cap * (db - da)
+                         + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) / tau
+                         + (cap - c->cpl) * (lb - la)) / c->lat;
+      if (x[j] > MODEL_X_STOP) {
+        q->nx = j + 1;         /* x[j] is the last one computed */
+        q->on = 0;
+        active--;
+      }
     }
   }
-#undef MODEL_EXP
-  if (keep) {
-    ys->e_got = n > 1 ? nx : 0;
-    ys->e_tau = tau;
-    ys->e_tref = tref;
-  }
+}
+
+/* The fit of one run's x (nx of them from s0) over the branch [i0, i1):
+ * value, its fit u, delta, u(delta), and x at the peak. Returns 0, or -1
+ * with why in es. */
+static int model_finish(const struct dctx *c, const struct ff_event *e,
+                        size_t s0, size_t i0, size_t i1, const double *x,
+                        size_t nx, double out[5], struct ff_estimate *es)
+{
+  double c0, c1, c00, c11, *fx, *fy;
+  size_t m = 0, pk;
+  int ret = -1;
+
   pk = dd_index_at(c, e->peak_time_s);
   out[4] = (pk >= s0 && pk < s0 + nx) ? x[pk - s0] : NAN;
   for (size_t i = i0; i < i1 && i < s0 + nx; i++)
@@ -892,8 +928,11 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
 {
   struct ff_estimate *es = &e->est[FF_METHOD_MODEL];
   const struct ff_liquid_fit *l = &e->liquid;
-  double r0[5], r1[5], u2, *x;
+  double r0[5], r1[5], u2;
   struct model_ys ys;
+  struct ff_liquid_fit lp[3];
+  struct model_run run[3];
+  int nr = 1, of[3] = { 0, -1, -1 };   /* run of the fit, the bath, tau */
 
   if (l->kind != 1) {
     est_fail(es, "the liquid branch does not give a bath temperature and "
@@ -907,16 +946,29 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
   ys.s0 = s0;
   ys.n = i1 - s0;
   ys.got = 0;
-  ys.e_got = 0;
-  ys.e_tau = ys.e_tref = NAN;
-  ys.v = malloc(3 * ys.n * sizeof *ys.v);
+  ys.v = malloc(4 * ys.n * sizeof *ys.v);   /* ys, then x of up to 3 runs */
   if (ys.v == NULL) {
     est_fail(es, "out of memory");
     return;
   }
-  x = ys.v + ys.n;
-  ys.e = x + ys.n;
-  if (model_pass(c, e, l, s0, i0, i1, &ys, x, r0, es) != 0) {
+  /* The fit itself, and the fits with the bath temperature and the time
+   * constant each moved by its u (the sensitivities), when known. */
+  lp[0] = *l;
+  for (int q = 0; q < 2; q++) {
+    double du = q == 0 ? l->u_bath_c : l->u_tau_s;
+    if (!isfinite(du) || !(du > 0.0))
+      continue;
+    lp[nr] = *l;
+    if (q == 0)
+      lp[nr].bath_c += du;
+    else
+      lp[nr].tau_s += du;
+    of[q + 1] = nr++;
+  }
+  for (int k = 0; k < nr; k++)
+    model_run_init(&run[k], &lp[k], ys.v + (size_t)(k + 1) * ys.n);
+  model_integrate(c, s0, ys.n, &ys, run, nr);
+  if (model_finish(c, e, s0, i0, i1, run[0].x, run[0].nx, r0, es) != 0) {
     free(ys.v);
     return;
   }
@@ -926,17 +978,12 @@ void dd_model(const struct dctx *c, struct ff_event *e, size_t s0, size_t i0,
   if (isfinite(r0[4]))
     e->frozen_fraction = r0[4];
   u2 = r0[1] * r0[1];
-  for (int q = 0; q < 2; q++) {
-    struct ff_liquid_fit lp = *l;
+  for (int q = 1; q < 3; q++) {
     struct ff_estimate dummy;
-    double du = q == 0 ? l->u_bath_c : l->u_tau_s;
-    if (!isfinite(du) || !(du > 0.0))
+    int k = of[q];
+    if (k < 0)
       continue;
-    if (q == 0)
-      lp.bath_c += du;
-    else
-      lp.tau_s += du;
-    if (model_pass(c, e, &lp, s0, i0, i1, &ys, x, r1, &dummy) == 0)
+    if (model_finish(c, e, s0, i0, i1, run[k].x, run[k].nx, r1, &dummy) == 0)
       u2 += (r1[0] - r0[0]) * (r1[0] - r0[0]);
   }
   free(ys.v);

@@ -61,6 +61,9 @@ static double radix_rank(const double *t, const double *y, int which,
  * neighbours at even spacing (one cache miss a run, not a value). */
 #define SEL_SAMPLE 65536
 #define SEL_RUN 256
+/* Readings a chunk of the one-pass medians (two arrays of it stay in the
+ * cache between its loops). */
+#define SEL_CHUNK 8192
 
 /*
  * The count of one pass that settles ranks r0 <= r1 when the values
@@ -87,6 +90,21 @@ static inline void br_add(struct bracket *b, double x)
     else if (b->g++ < b->cap)
       b->buf[b->g - 1] = x;
   }
+}
+
+/* br_add of the values of [i0, i1), the counts kept in registers. */
+static void br_range(struct bracket *b, const double *t, const double *y,
+                     int which, size_t i0, size_t i1)
+{
+  struct bracket l = *b;
+
+  if (which == 0)
+    for (size_t i = i0; i < i1; i++)
+      br_add(&l, dd_sel_value(t, y, 0, i));
+  else
+    for (size_t i = i0; i < i1; i++)
+      br_add(&l, dd_sel_value(t, y, 1, i));
+  *b = l;
 }
 
 /* After the pass: 1 with v filled, 0 when a rank lies outside the bracket
@@ -179,8 +197,7 @@ int dd_select_pair(const double *t, const double *y, int which, size_t i0,
     free(b.buf);
     return -1;
   }
-  for (size_t i = i0; i < i1; i++)
-    br_add(&b, dd_sel_value(t, y, which, i));
+  br_range(&b, t, y, which, i0, i1);
   if (br_finish(&b, v))
     return 0;
   v[0] = radix_rank(t, y, which, i0, i1, r0, cnt, 0, 0, 64 - SEL_BITS);
@@ -201,7 +218,7 @@ int dd_select_medians(const double *t, const double *y, size_t n,
                       const size_t r[2][2], double inv, size_t *off,
                       size_t *cnt, double v[2][2])
 {
-  struct bracket b0, b1;
+  struct bracket b0 = { .buf = NULL }, b1 = { .buf = NULL };
   size_t bad = 0;
   int ok0, ok1;
 
@@ -213,24 +230,19 @@ int dd_select_medians(const double *t, const double *y, size_t n,
     free(b1.buf);
     return -1;
   }
-  if (inv > 0.0) {
-    for (size_t i = 1; i + 1 < n; i++) {
-      double q = fabs(y[i] - y[i - 1]) * inv;
-      bad += fabs(q - dd_near_int(q)) > 0.01;
-      br_add(&b0, dd_sel_value(t, y, 0, i));
-      br_add(&b1, dd_sel_value(t, y, 1, i));
-    }
-    {
-      double q = fabs(y[n - 1] - y[n - 2]) * inv;
-      bad += fabs(q - dd_near_int(q)) > 0.01;
-    }
-  } else {
-    for (size_t i = 1; i + 1 < n; i++) {
-      br_add(&b0, dd_sel_value(t, y, 0, i));
-      br_add(&b1, dd_sel_value(t, y, 1, i));
-    }
+  /* A chunk at a time, each count in its own loop: the chunk is read from
+   * memory once and again from the cache, and each loop keeps its counts
+   * in registers. */
+  for (size_t c0 = 1; c0 < n; c0 += SEL_CHUNK) {
+    size_t c1 = c0 + SEL_CHUNK < n ? c0 + SEL_CHUNK : n;
+    br_range(&b0, t, y, 0, c0, c1 < n - 1 ? c1 : n - 1);
+    br_range(&b1, t, y, 1, c0, c1);
+    if (inv > 0.0)
+      for (size_t i = c0; i < c1; i++) {
+        double q = fabs(y[i] - y[i - 1]) * inv;
+        bad += fabs(q - dd_near_int(q)) > 0.01;
+      }
   }
-  br_add(&b1, dd_sel_value(t, y, 1, n - 1));
   *off = bad;
   ok0 = br_finish(&b0, v[0]);
   ok1 = br_finish(&b1, v[1]);
