@@ -17,6 +17,7 @@
 #include <gsl/gsl_statistics_double.h>
 
 #include "frostfit/detect.h"
+#include "frostfit/simulate.h"
 #include "../src/detect_impl.h"
 
 static void setup(void)
@@ -454,4 +455,125 @@ Test(detect_speed, model_block_fit_matches_every_point, .init = setup)
   free(fy);
   free(gx);
   free(gy);
+}
+
+/* ---- the energy-balance model's side-by-side integrations ---------- */
+
+/* A channel's smoothed readings cache, as detect.c sets it up. */
+static void ys_setup(struct dctx *c)
+{
+  size_t nb = (c->n + YS_BLOCK - 1) / YS_BLOCK;
+  double h = 2.0 / c->dt;
+
+  c->h = h < 1.0 ? 1 : h > 10.0 ? 10 : (size_t)(h + 0.5);
+  c->ysc = calloc(1, sizeof *c->ysc);
+  cr_assert(c->ysc != NULL);
+  c->ysc->ways = nb < YS_WAYS ? (unsigned)nb : YS_WAYS;
+  c->ysc->v = malloc((size_t)c->ysc->ways * YS_BLOCK * sizeof *c->ysc->v);
+  c->ysc->top_v = malloc(nb * sizeof *c->ysc->top_v);
+  c->ysc->top_i = malloc(nb * sizeof *c->ysc->top_i);
+  cr_assert(c->ysc->v && c->ysc->top_v && c->ysc->top_i);
+  for (size_t b = 0; b < nb; b++)
+    c->ysc->top_i[b] = SIZE_MAX;
+}
+
+static void ys_free(struct dctx *c)
+{
+  free(c->ysc->v);
+  free(c->ysc->top_v);
+  free(c->ysc->top_i);
+  free(c->ysc);
+}
+
+/* The model of one event with the liquid fit l: value, u, delta. */
+static void model_with(const struct dctx *c, const struct ff_event *ev,
+                       const struct ff_liquid_fit *l, size_t s0, size_t i0,
+                       size_t i1, double out[3])
+{
+  struct ff_event e = *ev;
+
+  e.liquid = *l;
+  e.est[FF_METHOD_MODEL].ok = 0;
+  dd_model(c, &e, s0, i0, i1);
+  cr_assert(e.est[FF_METHOD_MODEL].ok, "model: %s",
+            e.est[FF_METHOD_MODEL].why);
+  out[0] = e.est[FF_METHOD_MODEL].value_c;
+  out[1] = e.est[FF_METHOD_MODEL].u_k;
+  out[2] = e.model_delta_k;
+}
+
+/* The model integrates the fit and, for its uncertainty, the fits with
+ * the bath and the time constant each moved by its u, side by side: the
+ * fit's value and delta must be those of the fit integrated alone (bit for
+ * bit), and the uncertainty the root sum of squares of the moved fits'
+ * changes, each integrated alone. A simulated 0.2 mol/kg NaCl-like
+ * solution at 10 Hz, one cycle. */
+Test(detect_speed, model_side_by_side_runs_match_each_alone, .init = setup)
+{
+  struct ff_sim_params sp;
+  struct ff_sim_result sr = FF_SIM_RESULT_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  struct ff_event_list l = FF_EVENT_LIST_INIT;
+  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
+  struct ff_liquid_fit lq, lb, lt;
+  struct dctx c;
+  const struct ff_event *e;
+  double all[3], alone[3], vb[3], vt[3], u2;
+  size_t s0, i0, i1;
+
+  ff_sim_params_default(&sp);
+  sp.molality_mol_kg = 0.2;
+  sp.vant_hoff_i = 1.9;
+  sp.dt_s = 0.1;
+  sp.cycles = 1;
+  sp.seed = 8;
+  cr_assert_eq(ff_simulate_run(&sp, &sr, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(ff_detect_run(sr.t_s, sr.temp_c, sr.n, &p, &l, &d), FF_OK,
+               "%s", d.msg);
+  cr_assert(l.n >= 1);
+  e = &l.v[0];
+  cr_assert(e->est[FF_METHOD_MODEL].ok, "%s", e->est[FF_METHOD_MODEL].why);
+  cr_assert(isfinite(e->liquid.u_bath_c) && e->liquid.u_bath_c > 0.0);
+  cr_assert(isfinite(e->liquid.u_tau_s) && e->liquid.u_tau_s > 0.0);
+
+  memset(&c, 0, sizeof c);
+  c.t = sr.t_s;
+  c.y = sr.temp_c;
+  c.n = sr.n;
+  c.p = &p;
+  c.dt = sp.dt_s;
+  c.sigma = e->noise_k;
+  c.res = e->resolution_k;
+  c.cpl = 4.2194;              /* water, as detect.c takes it */
+  c.cps = 2.0967;
+  c.lat = 6006.77 / 18.015268;
+  ys_setup(&c);
+  s0 = dd_index_at(&c, e->nucleation_time_s - 10.0);
+  i0 = dd_index_at(&c, e->branch_start_s);
+  i1 = dd_index_at(&c, e->branch_end_s) + 1;
+
+  model_with(&c, e, &e->liquid, s0, i0, i1, all);
+  lq = e->liquid;
+  lq.u_bath_c = lq.u_tau_s = NAN;      /* the fit alone */
+  model_with(&c, e, &lq, s0, i0, i1, alone);
+  lb = lq;
+  lb.bath_c += e->liquid.u_bath_c;
+  model_with(&c, e, &lb, s0, i0, i1, vb);
+  lt = lq;
+  lt.tau_s += e->liquid.u_tau_s;
+  model_with(&c, e, &lt, s0, i0, i1, vt);
+
+  cr_assert(same_bits(all[0], alone[0]), "value %.17g, alone %.17g",
+            all[0], alone[0]);
+  cr_assert(same_bits(all[2], alone[2]), "delta %.17g, alone %.17g",
+            all[2], alone[2]);
+  cr_assert(!same_bits(vb[0], alone[0]) && !same_bits(vt[0], alone[0]),
+            "the moved fits must move the value");
+  u2 = alone[1] * alone[1] + (vb[0] - alone[0]) * (vb[0] - alone[0])
+       + (vt[0] - alone[0]) * (vt[0] - alone[0]);
+  cr_assert(fabs(all[1] - sqrt(u2)) <= 1e-12 * sqrt(u2),
+            "u %.17g, from the runs alone %.17g", all[1], sqrt(u2));
+  ys_free(&c);
+  ff_event_list_release(&l);
+  ff_sim_result_release(&sr);
 }
