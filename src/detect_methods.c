@@ -801,10 +801,28 @@ static void model_run_init(struct model_run *r, const struct ff_liquid_fit *l,
  * are those of run 0 (bit for bit) takes run 0's exponentials, the same
  * numbers.
  */
+/* One step of the energy balance: x at b from x at a (xp), the liquid
+ * curve at a and b (la, lb), the smoothed readings there (ya, yb) and the
+ * step's duration dt. */
+static inline double model_step(const struct dctx *c, double xp, double la,
+                                double lb, double ya, double yb, double dt,
+                                double tau)
+{
+  /* x is clamped to [0, 1] for the heat capacity; it never exceeds
+   * MODEL_X_STOP < 1 here (the run stops first), so only 0 binds. */
+  double xc = xp < 0.0 ? 0.0 : xp;
+  double da = ya - la, db = yb - lb;
+  double cap = (1.0 - xc) * c->cpl + xc * c->cps;
+
+  return xp + (cap * (db - da) + c->cpl * 0.5 * (da + db) * dt / tau
+               + (cap - c->cpl) * (lb - la)) / c->lat;
+}
+
 static void model_integrate(const struct dctx *c, size_t s0, size_t n,
                             struct model_ys *ys, struct model_run *r, int nr)
 {
   int active = 0;
+  size_t j = 1;
 
   for (int k = 0; k < nr; k++) {
     r[k].share = k > 0 && memcmp(&r[k].tau, &r[0].tau, sizeof r[k].tau) == 0
@@ -817,7 +835,45 @@ static void model_integrate(const struct dctx *c, size_t s0, size_t n,
                        : 0.0;
     active += r[k].on;
   }
-  for (size_t j = 1; j < n && active > 0; j++) {
+  /* The usual case, three runs of which the second shares the first's
+   * exponentials, while all three go on: the state in registers. */
+  if (nr == 3 && r[1].share && !r[2].share) {
+    double x0 = 0.0, x1 = 0.0, x2 = 0.0, l0 = r[0].lnext, l1 = r[1].lnext,
+           l2 = r[2].lnext, ya = n > 1 ? model_ys_at(c, ys, 0) : 0.0;
+    for (; j < n; j++) {
+      size_t a = s0 + j - 1, b = a + 1;
+      double yb = model_ys_at(c, ys, j), dt = c->t[b] - c->t[a];
+      double e0 = exp(-(c->t[b] - r[0].tref) / r[0].tau),
+             e2 = exp(-(c->t[b] - r[2].tref) / r[2].tau);
+      double m0 = r[0].bath + r[0].amp * e0, m1 = r[1].bath + r[1].amp * e0,
+             m2 = r[2].bath + r[2].amp * e2;
+      x0 = model_step(c, x0, l0, m0, ya, yb, dt, r[0].tau);
+      x1 = model_step(c, x1, l1, m1, ya, yb, dt, r[1].tau);
+      x2 = model_step(c, x2, l2, m2, ya, yb, dt, r[2].tau);
+      r[0].x[j] = x0;
+      r[1].x[j] = x1;
+      r[2].x[j] = x2;
+      l0 = m0;
+      l1 = m1;
+      l2 = m2;
+      ya = yb;
+      if (x0 > MODEL_X_STOP || x1 > MODEL_X_STOP || x2 > MODEL_X_STOP)
+        break;                 /* the general loop below takes x[j] */
+    }
+    r[0].lnext = l0;
+    r[1].lnext = l1;
+    r[2].lnext = l2;
+    if (j < n) {               /* stopped at j: mark the runs that end */
+      for (int k = 0; k < nr; k++)
+        if (r[k].x[j] > MODEL_X_STOP) {
+          r[k].nx = j + 1;     /* x[j] is the last one computed */
+          r[k].on = 0;
+          active--;
+        }
+      j++;
+    }
+  }
+  for (; j < n && active > 0; j++) {
     size_t a = s0 + j - 1, b = a + 1;
     double ya = model_ys_at(c, ys, j - 1), yb = model_ys_at(c, ys, j), e0 = 0.0;
     int need0 = r[0].on;
@@ -830,18 +886,11 @@ static void model_integrate(const struct dctx *c, size_t s0, size_t n,
       double *x = q->x, tau = q->tau;
       if (!q->on)
         continue;
-      /* x is clamped to [0, 1] for the heat capacity; it never exceeds
-       * MODEL_X_STOP < 1 here (the run stops first), so only 0 binds. */
-      double xc = x[j - 1] < 0.0 ? 0.0 : x[j - 1];
       double la = q->lnext,
              lb = q->bath + q->amp * (k == 0 || q->share ? e0
                                       : exp(-(c->t[b] - q->tref) / tau));
       q->lnext = lb;
-      double da = ya - la, db = yb - lb;
-      double cap = (1.0 - xc) * c->cpl + xc * c->cps;
-      x[j] = x[j - 1] + (cap * (db - da)
-                         + c->cpl * 0.5 * (da + db) * (c->t[b] - c->t[a]) / tau
-                         + (cap - c->cpl) * (lb - la)) / c->lat;
+      x[j] = model_step(c, x[j - 1], la, lb, ya, yb, c->t[b] - c->t[a], tau);
       if (x[j] > MODEL_X_STOP) {
         q->nx = j + 1;         /* x[j] is the last one computed */
         q->on = 0;
