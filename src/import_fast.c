@@ -10,8 +10,8 @@
  * (blank and comment lines, missing, repeated or backwards times, rows
  * without a temperature) in file order, as the general reader does. */
 
-/* madvise(MADV_POPULATE_WRITE) is a Linux extension; this file asks for
- * it (without it, the pages fault in one by one as before). */
+/* madvise(MADV_POPULATE_WRITE, MADV_HUGEPAGE) are Linux extensions; this
+ * file asks for them (without them, the pages fault in one by one). */
 #define _DEFAULT_SOURCE 1
 
 #include "import_impl.h"
@@ -181,15 +181,10 @@ static size_t count_lf(const char *s, size_t n)
   return c;
 }
 
-/* Bytes of the file mapped at a time to count lines (pass 1). */
-#define FAST_MAP_WINDOW ((size_t)4 << 20)
-
 /*
  * Pass 1 for chunk i: counts the line starts it owns (a line starts at the
  * data offset and after every '\n' that is not the file's last byte) and
- * finds where its first one is. The file is mapped read-only a window at a
- * time (counted in place, without copying it out of the page cache); where
- * a map fails, the window is read with pread.
+ * finds where its first one is.
  */
 static void count_chunk(void *ctx, size_t i)
 {
@@ -198,11 +193,7 @@ static void count_chunk(void *ctx, size_t i)
   size_t d0 = fs->in->data_offset;
   size_t lo = i == 0 ? d0 : c->lo - 1, hi = c->hi - 1;
   size_t cap = block_size(), lines = 0;
-  const size_t page = (size_t)sysconf(_SC_PAGESIZE);
-  const int fd = fs->in->fd;
-  /* the tests' small blocks make small windows too */
-  const size_t window = tune_block > 0 ? tune_block : FAST_MAP_WINDOW;
-  char *buf = NULL;
+  char *buf;
 
   if (i == 0) {
     c->has_start = 1;
@@ -215,40 +206,27 @@ static void count_chunk(void *ctx, size_t i)
     c->lines = lines;
     return;
   }
+  if (cap > hi - lo)
+    cap = hi - lo;
+  buf = malloc(cap);
+  if (buf == NULL) {
+    atomic_store(&fs->abandon, 1);
+    return;
+  }
   for (size_t off = lo; off < hi && !atomic_load(&fs->abandon);) {
-    size_t n = hi - off < window ? hi - off : window;
-    size_t a = page > 0 ? off - off % page : off;
-    const char *s = NULL;
-    void *map = MAP_FAILED;
-    if (fd >= 0 && page > 0)
-      map = mmap(NULL, off + n - a, PROT_READ, MAP_PRIVATE | MAP_POPULATE,
-                 fd, (off_t)a);
-    if (map != MAP_FAILED) {
-      s = (const char *)map + (off - a);
-    } else {
-      if (buf == NULL) {
-        if (cap > hi - lo)
-          cap = hi - lo;
-        buf = malloc(cap);
-      }
-      if (n > cap)
-        n = cap;
-      if (buf == NULL || read_at(fs, buf, n, off) != 0) {
-        atomic_store(&fs->abandon, 1);
-        break;
-      }
-      s = buf;
+    size_t n = hi - off < cap ? hi - off : cap;
+    if (read_at(fs, buf, n, off) != 0) {
+      atomic_store(&fs->abandon, 1);
+      break;
     }
     if (!c->has_start) {
-      const char *nl = memchr(s, '\n', n);
+      const char *nl = memchr(buf, '\n', n);
       if (nl != NULL) {
         c->has_start = 1;
-        c->start = off + (size_t)(nl - s) + 1;
+        c->start = off + (size_t)(nl - buf) + 1;
       }
     }
-    lines += count_lf(s, n);
-    if (map != MAP_FAILED)
-      munmap(map, off + n - a);
+    lines += count_lf(buf, n);
     off += n;
   }
   free(buf);
