@@ -881,12 +881,13 @@ static void read_lines(const struct dctx *c, struct ff_event *e, size_t b0,
                        size_t b_end)
 {
   size_t pe = dd_index_at(c, c->t[b0] + c->p->max_branch_s);
+  struct dd_fit1 f1;
 
   if (pe + 1 < b_end)
     b_end = pe + 1;
   dd_plateau(c, e, b0, b_end);
-  dd_extrapolate(c, e, b0, b_end);
-  dd_intersect(c, e, b0, b_end);
+  dd_extrapolate(c, e, b0, b_end, &f1);
+  dd_intersect(c, e, b0, b_end, &f1);
 }
 
 static void init_event(struct ff_event *e, unsigned cycle, double res)
@@ -1122,7 +1123,7 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
   }
   if (b0 + 1 < pend) {
     dd_plateau(c, e, b0, pend);
-    dd_extrapolate(c, e, b0, pend);
+    dd_extrapolate(c, e, b0, pend, NULL);
   }
   s0 = dd_index_at(c, e->nucleation_time_s - BREAK_WINDOW_S);
   if (s0 < lw0)

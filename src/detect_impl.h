@@ -83,10 +83,20 @@ int dd_model_fit_blocks(double *fx, double *fy, size_t m, double *c0,
 /* The methods; each fills est (ok = 0 with why when not computable). */
 void dd_plateau(const struct dctx *c, struct ff_event *e, size_t i0,
                 size_t i1);
+/* The straight line through a branch at the nucleation instant (order 1
+ * of dd_branch), fitted once for the extrapolation and the intersection
+ * of the same branch. */
+struct dd_fit1 {
+  int ok;                      /* dd_branch succeeded */
+  struct ff_branch_fit b;
+  double cov[9];
+};
+/* f1: NULL, or filled by dd_extrapolate and read by dd_intersect over the
+ * same [i0, i1) (NULL: each fits the line itself). */
 void dd_extrapolate(const struct dctx *c, struct ff_event *e, size_t i0,
-                    size_t i1);
+                    size_t i1, struct dd_fit1 *f1);
 void dd_intersect(const struct dctx *c, struct ff_event *e, size_t i0,
-                  size_t i1);
+                  size_t i1, const struct dd_fit1 *f1);
 void dd_break(const struct dctx *c, struct ff_event *e, size_t l0,
               size_t i1);
 void dd_model(const struct dctx *c, struct ff_event *e, size_t s0,

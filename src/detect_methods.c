@@ -475,13 +475,21 @@ void dd_plateau(const struct dctx *c, struct ff_event *e, size_t i0,
 /* ---- back-extrapolation to the nucleation instant ------------------- */
 
 void dd_extrapolate(const struct dctx *c, struct ff_event *e, size_t i0,
-                    size_t i1)
+                    size_t i1, struct dd_fit1 *f1)
 {
   struct ff_estimate *es = &e->est[FF_METHOD_EXTRAPOLATE];
   struct ff_branch_fit b1, b2;
   double cov1[9], cov2[9], s;
+  int st = dd_branch(c, i0, i1, 1, e->nucleation_time_s, &b1, cov1);
 
-  if (dd_branch(c, i0, i1, 1, e->nucleation_time_s, &b1, cov1) != 0) {
+  if (f1 != NULL) {            /* the straight line, for dd_intersect */
+    f1->ok = st == 0;
+    if (st == 0) {
+      f1->b = b1;
+      memcpy(f1->cov, cov1, sizeof cov1);
+    }
+  }
+  if (st != 0) {
     est_fail(es, "freezing branch too short to fit");
     return;
   }
@@ -500,7 +508,7 @@ void dd_extrapolate(const struct dctx *c, struct ff_event *e, size_t i0,
 /* ---- intersection of the straight liquid and freezing lines --------- */
 
 void dd_intersect(const struct dctx *c, struct ff_event *e, size_t i0,
-                  size_t i1)
+                  size_t i1, const struct dd_fit1 *f1)
 {
   struct ff_estimate *es = &e->est[FF_METHOD_INTERSECT];
   const struct ff_liquid_fit *l = &e->liquid_line;
@@ -511,9 +519,14 @@ void dd_intersect(const struct dctx *c, struct ff_event *e, size_t i0,
     est_fail(es, "no liquid cooling line before nucleation");
     return;
   }
-  if (dd_branch(c, i0, i1, 1, e->nucleation_time_s, &b, cov) != 0) {
+  if (f1 != NULL ? !f1->ok
+      : dd_branch(c, i0, i1, 1, e->nucleation_time_s, &b, cov) != 0) {
     est_fail(es, "freezing branch too short to fit");
     return;
+  }
+  if (f1 != NULL) {
+    b = f1->b;
+    memcpy(cov, f1->cov, sizeof cov);
   }
   den = l->slope_k_s - b.c[1];
   if (!(den < 0.0)) {

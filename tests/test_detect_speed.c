@@ -577,3 +577,66 @@ Test(detect_speed, model_side_by_side_runs_match_each_alone, .init = setup)
   ff_event_list_release(&l);
   ff_sim_result_release(&sr);
 }
+
+/* ---- the straight line shared by extrapolation and intersection ---- */
+
+/* The extrapolation hands its straight-line fit to the intersection of the
+ * same branch: both readings as when each fits the line itself, bit for
+ * bit, on branches that slope, bend and are too short to fit. */
+Test(detect_speed, shared_branch_line_gives_the_same_readings, .init = setup)
+{
+  size_t n = 3000;
+  double *t = malloc(n * sizeof *t), *y = malloc(n * sizeof *y);
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
+  struct dctx c;
+
+  cr_assert(t && y && r);
+  for (int k = 0; k < 3; k++) {
+    size_t nl = 600, i0 = nl + 100, i1 = k == 2 ? i0 + 6 : n;
+    struct ff_event e1, e2;
+    struct dd_fit1 f1;
+    for (size_t i = 0; i < n; i++) {
+      double s = (double)i * 0.1;
+      t[i] = 4e5 + s;
+      y[i] = i < nl ? 2.0 - 0.04 * s
+             : -0.3 - 1e-4 * (s - 60.0) - (k == 1 ? 2e-6 * (s - 60.0)
+                                               * (s - 60.0) : 0.0);
+      y[i] += gsl_ran_gaussian(r, 0.002);
+    }
+    memset(&c, 0, sizeof c);
+    c.t = t;
+    c.y = y;
+    c.n = n;
+    c.p = &p;
+    c.sigma = 0.002;
+    memset(&e1, 0, sizeof e1);
+    e1.nucleation_time_s = t[nl];
+    e1.liquid_line.kind = 2;
+    e1.liquid_line.t_ref_s = t[nl - 1];
+    e1.liquid_line.t0_c = y[nl - 1];
+    e1.liquid_line.slope_k_s = -0.04;
+    e1.liquid_line.start_s = t[0];
+    e1.liquid_line.end_s = t[nl - 1];
+    e1.liquid_line.rms_k = 0.002;
+    e2 = e1;
+    dd_extrapolate(&c, &e1, i0, i1, NULL);
+    dd_intersect(&c, &e1, i0, i1, NULL);
+    dd_extrapolate(&c, &e2, i0, i1, &f1);
+    dd_intersect(&c, &e2, i0, i1, &f1);
+    for (int m = FF_METHOD_EXTRAPOLATE; m <= FF_METHOD_INTERSECT; m++) {
+      const struct ff_estimate *a = &e1.est[m], *b = &e2.est[m];
+      cr_assert_eq(a->ok, b->ok, "case %d method %d", k, m);
+      cr_assert(same_bits(a->value_c, b->value_c)
+                && same_bits(a->u_k, b->u_k), "case %d method %d: %.17g "
+                "+- %.3g vs %.17g +- %.3g", k, m, a->value_c, a->u_k,
+                b->value_c, b->u_k);
+      cr_assert_str_eq(a->why, b->why);
+    }
+    cr_assert_eq(e1.est[FF_METHOD_INTERSECT].ok, k != 2, "case %d: %s", k,
+                 e1.est[FF_METHOD_INTERSECT].why);
+  }
+  gsl_rng_free(r);
+  free(t);
+  free(y);
+}
