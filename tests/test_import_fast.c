@@ -534,3 +534,51 @@ Test(import_fast, quick_number_leaves_the_rest_to_the_parser)
               "'%s': %.17g", yes[i], x);
   }
 }
+
+/* --------------------------------------------- digit runs and block ends */
+
+/* Cells with 0 to 10 digits before and after the mark (the shortcut reads
+ * runs of up to 8 digits with one load, longer ones one at a time), signs,
+ * and the file's last cell right at its end: same as the general reader,
+ * small blocks putting numbers at every distance from a block's end. */
+Test(import_fast, digit_runs_of_every_length_at_block_ends,
+     .init = make_tmpdir, .fini = remove_tmpdir)
+{
+  static const char digits[] = "9081726354";
+  char path[128];
+  FILE *f;
+  unsigned rows = 30000;
+
+  snprintf(path, sizeof path, "%s/runs.csv", tmpdir);
+  f = fopen(path, "wb");
+  cr_assert_not_null(f);
+  fputs("time (s),T1 (C),T2 (C)\n", f);
+  for (unsigned i = 0; i < rows; i++) {
+    unsigned ni = i % 11, nf = (i / 11) % 11;
+    fprintf(f, "%u.%u", i, i % 10);
+    for (unsigned k = 0; k < 2; k++) {
+      fputc(',', f);
+      if ((i + k) % 3 == 0)
+        fputc('-', f);
+      for (unsigned d = 0; d < ni; d++)
+        fputc(digits[(d + k + i) % 10], f);
+      if (nf > 0 || ni == 0) {
+        fputc('.', f);
+        for (unsigned d = 0; d < nf; d++)
+          fputc(digits[(d + 3 * k + i) % 10], f);
+        if (nf == 0)
+          fputc('5', f);
+      }
+    }
+    if (i + 1 < rows)
+      fputc('\n', f);                 /* the last line without its end */
+  }
+  cr_assert_eq(fclose(f), 0);
+  /* beyond the sniffing sample, so blocks are read with pread */
+  for (size_t b = 0; b < 6; b++) {
+    ff_import_fast_tune(b == 0 ? 0 : 40000 + 7 * b, b == 0 ? 0 : 200 + 13 * b);
+    cr_expect_eq(check_both(path, NULL), TOOK_FAST | IMPORTED,
+                 "blocks of %zu bytes", b == 0 ? 0 : 200 + 13 * b);
+  }
+  ff_import_fast_tune(0, 0);
+}
