@@ -1014,6 +1014,9 @@ static int find_break(const struct dctx *c, size_t a, size_t b, size_t *at)
 {
   size_t n = b > a ? b - a : 0, w, best = 0, wb, ahead, R, filled = 0;
   double *S, bestr = 0.0, t0;
+  const double min_drop = fmax(BREAK_MIN_DROP_K,
+                               10.0 * c->sigma + 2.0 * c->res);
+  double r0 = 0.0, r1 = 0.0, r2 = 0.0, r3 = 0.0, r4 = 0.0;  /* sums so far */
 
   if (n < 20)
     return 0;
@@ -1042,16 +1045,42 @@ static int find_break(const struct dctx *c, size_t a, size_t b, size_t *at)
   } while (0)
   for (size_t i = w; i + ahead <= n; i++) {
     double sb, sa, sl, drop;
-    for (; filled < i + ahead; filled++) {   /* prefix sums up to i+ahead */
+    /* Prefix sums up to i + ahead, the running ones kept in registers
+     * (the same additions in the same order). */
+    for (; filled < i + ahead; filled++) {
       double x = c->t[a + filled] - t0, y = c->y[a + filled];
-      double add[5] = { 1.0, x, x * x, y, x * y };
-      double *from = PS(filled), *to = PS(filled + 1);
-      for (int k = 0; k < 5; k++)
-        to[k] = from[k] + add[k];
+      double *to = PS(filled + 1);
+      r0 += 1.0;
+      r1 += x;
+      r2 += x * x;
+      r3 += y;
+      r4 += x * y;
+      to[0] = r0;
+      to[1] = r1;
+      to[2] = r2;
+      to[3] = r3;
+      to[4] = r4;
+    }
+    /* Most readings stop here, without a division or a branch that goes
+     * either way at random on noise: the window's drop is
+     * -num / sxx * span, num = m4 - m1 m3 / m0 and sxx = m2 - m1^2 / m0.
+     * Times m0^2 (> 0), with bounds that cover the rounding of either
+     * form (generously), A >= -num m0 and S <= sxx m0: when
+     * A span < min_drop S, the drop the tests below compute is smaller
+     * than min_drop too, and they would go on to the next reading. */
+    {
+      double m0 = PS(i)[0] - PS(i - w)[0], m1 = PS(i)[1] - PS(i - w)[1],
+             m2 = PS(i)[2] - PS(i - w)[2], m3 = PS(i)[3] - PS(i - w)[3],
+             m4 = PS(i)[4] - PS(i - w)[4];
+      double p13 = m1 * m3, p40 = m4 * m0, p20 = m2 * m0, p11 = m1 * m1;
+      double A = p13 - p40 + 1e-13 * (fabs(p13) + fabs(p40)),
+             Sx = p20 - p11 - 1e-13 * (fabs(p20) + p11),
+             span = c->t[a + i - 1] - c->t[a + i - w];
+      if (Sx > 0.0 && A * span < min_drop * Sx * (1.0 - 1e-9))
+        continue;
     }
     /* The slope before i falls only if its numerator is negative (sxx is
-     * positive or the slope is 0): most readings stop here, without the
-     * division. */
+     * positive or the slope is 0). */
     {
       double n1 = PS(i)[1] - PS(i - w)[1], n0 = PS(i)[0] - PS(i - w)[0];
       if (!(PS(i)[4] - PS(i - w)[4] - n1 * (PS(i)[3] - PS(i - w)[3]) / n0
@@ -1062,7 +1091,7 @@ static int find_break(const struct dctx *c, size_t a, size_t b, size_t *at)
     if (!(sb < 0.0))
       continue;
     drop = -sb * (c->t[a + i - 1] - c->t[a + i - w]);
-    if (drop < fmax(BREAK_MIN_DROP_K, 10.0 * c->sigma + 2.0 * c->res))
+    if (drop < min_drop)
       continue;
     SLOPE(i, i + w, sa);
     SLOPE(i, i + wb, sl);

@@ -640,3 +640,46 @@ Test(detect_speed, shared_branch_line_gives_the_same_readings, .init = setup)
   free(t);
   free(y);
 }
+
+/* ---- the slope-break scan over long flat stretches ------------------ */
+
+/* The slope-break scan settles the readings of a flat stretch without its
+ * exact slopes (their drop is bounded from the window's sums); the corner
+ * after a two-hour noisy warm hold, at a clock of 3e6 s and 10 Hz, must
+ * still be the one built: liquid 5.0 - 0.02 s C down to -0.4 C, then the
+ * branch -0.4 - 0.0005 s C (the construction of the slope_break test in
+ * test_detect.c, common practice, no source), with 1 mK of noise. */
+Test(detect_speed, slope_break_after_a_long_warm_hold, .init = setup)
+{
+  const double hold = 7200.0, tc = hold + 270.0;   /* 5.4 K at 0.02 K/s */
+  size_t n = (size_t)((tc + 600.0) * 10.0);
+  double *t = malloc(n * sizeof *t), *y = malloc(n * sizeof *y);
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+  struct ff_event_list l = FF_EVENT_LIST_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
+  const struct ff_event *e;
+
+  cr_assert(t && y && r);
+  gsl_rng_set(r, 21);
+  for (size_t i = 0; i < n; i++) {
+    double s = (double)i * 0.1;
+    t[i] = 3e6 + s;
+    y[i] = s < hold ? 5.0 : s <= tc ? 5.0 - 0.02 * (s - hold)
+                                    : -0.40 - 0.0005 * (s - tc);
+    y[i] += gsl_ran_gaussian(r, 0.001);
+  }
+  cr_assert_eq(ff_detect_run(t, y, n, &p, &l, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(l.n, 1, "%zu events", l.n);
+  e = &l.v[0];
+  cr_assert(e->flags & FF_FLAG_NO_NUCLEATION, "flags %#x", e->flags);
+  cr_assert(e->est[FF_METHOD_BREAK].ok, "%s", e->est[FF_METHOD_BREAK].why);
+  cr_assert(fabs(e->break_time_s - (3e6 + tc)) < 1.0, "break at %.2f s, "
+            "built at %.2f s", e->break_time_s - 3e6, tc);
+  cr_assert(fabs(e->est[FF_METHOD_BREAK].value_c + 0.40) < 0.002,
+            "break %.5f C", e->est[FF_METHOD_BREAK].value_c);
+  ff_event_list_release(&l);
+  gsl_rng_free(r);
+  free(t);
+  free(y);
+}
