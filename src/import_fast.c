@@ -10,8 +10,8 @@
  * (blank and comment lines, missing, repeated or backwards times, rows
  * without a temperature) in file order, as the general reader does. */
 
-/* madvise(MADV_POPULATE_WRITE, MADV_HUGEPAGE) are Linux extensions; this
- * file asks for them (without them, the pages fault in one by one). */
+/* madvise(MADV_POPULATE_WRITE) is a Linux extension; this file asks for
+ * it (without it, the pages fault in one by one as before). */
 #define _DEFAULT_SOURCE 1
 
 #include "import_impl.h"
@@ -716,25 +716,6 @@ static int parse_lines(struct worker *w, const char *s, size_t n)
   return p == e ? 0 : -1;
 }
 
-/* Asks for huge pages under a[0..n) (Linux, where transparent huge pages
- * are on "madvise"): the slots are then faulted in 2 MiB at a time, with
- * fewer page faults and page-table entries, also for whoever reads the
- * arrays later. Elsewhere, or when refused, nothing changes. */
-static void want_huge(double *a, size_t n)
-{
-#if defined(MADV_HUGEPAGE)
-  const uintptr_t huge = (uintptr_t)2 << 20;
-  uintptr_t lo = ((uintptr_t)a + huge - 1) & ~(huge - 1);
-  uintptr_t hi = (uintptr_t)(a + n) & ~(huge - 1);
-
-  if (hi > lo)
-    (void)madvise((void *)lo, hi - lo, MADV_HUGEPAGE);
-#else
-  (void)a;
-  (void)n;
-#endif
-}
-
 /* Maps a[0..n) in one call rather than a page fault per page (Linux 5.14
  * and later; elsewhere nothing happens and the pages fault in as used). */
 static void prefault(double *a, size_t n)
@@ -1183,12 +1164,10 @@ int ff_import_fast(const struct ff_fast_in *in, struct ff_dataset *ds)
     fs.parts = malloc(slots);
   if (fs.t == NULL || fs.v == NULL || (in->clock && fs.parts == NULL))
     return decline(&fs, ds);
-  want_huge(fs.t, slots);
   for (size_t k = 0; k < fs.nch; k++) {
     fs.v[k] = malloc(slots * sizeof *fs.v[k]);
     if (fs.v[k] == NULL)
       return decline(&fs, ds);
-    want_huge(fs.v[k], slots);
   }
 
   /* pass 2: parse every chunk into its slots */
