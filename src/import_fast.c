@@ -494,7 +494,8 @@ static FAST_INLINE double temp_value(const struct ff_fast_in *in, double v,
  * that is not taken (NULL) ends the fast path, so nothing here need be
  * undone.
  */
-static const char *parse_plain(struct worker *w, const char *q, size_t slot)
+static FAST_INLINE const char *parse_plain(struct worker *w, const char *q,
+                                           size_t slot)
 {
   struct fast *fs = w->fs;
   const struct ff_fast_in *in = fs->in;
@@ -581,7 +582,7 @@ static const char *parse_plain(struct worker *w, const char *q, size_t slot)
  * One line at p (a '\n' follows somewhere): fills its slot. Returns the
  * start of the next line, or NULL to hand the file to the general reader.
  */
-static const char *parse_line(struct worker *w, const char *p)
+static FAST_INLINE const char *parse_line(struct worker *w, const char *p)
 {
   struct fast *fs = w->fs;
   const struct ff_fast_in *in = fs->in;
