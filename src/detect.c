@@ -515,12 +515,22 @@ double dd_ys_fill(const struct dctx *c, size_t i)
   smooth_block(c, i0, i1, k->v + (size_t)w * YS_BLOCK);
   {
     const double *v = k->v + (size_t)w * YS_BLOCK;
-    size_t at = 0;
-    for (size_t j = 1; j < i1 - i0; j++)
-      if (v[j] > v[at])
+    size_t at = 0, bt = 0;
+    double tv = v[0], bv = v[0];
+    for (size_t j = 1; j < i1 - i0; j++) {
+      if (v[j] > tv) {
+        tv = v[j];
         at = j;
-    k->top_v[tag - 1] = v[at];
+      }
+      if (v[j] < bv) {
+        bv = v[j];
+        bt = j;
+      }
+    }
+    k->top_v[tag - 1] = tv;
     k->top_i[tag - 1] = i0 + at;
+    k->bot_v[tag - 1] = bv;
+    k->bot_i[tag - 1] = i0 + bt;
   }
   k->tag[w] = tag;
   k->filled[w] = ++k->clock;
@@ -543,7 +553,10 @@ static int smooth(struct dctx *c)
   c->ysc->v = malloc((size_t)c->ysc->ways * YS_BLOCK * sizeof *c->ysc->v);
   c->ysc->top_v = malloc(nb * sizeof *c->ysc->top_v);
   c->ysc->top_i = malloc(nb * sizeof *c->ysc->top_i);
-  if (c->ysc->v == NULL || c->ysc->top_v == NULL || c->ysc->top_i == NULL)
+  c->ysc->bot_v = malloc(nb * sizeof *c->ysc->bot_v);
+  c->ysc->bot_i = malloc(nb * sizeof *c->ysc->bot_i);
+  if (c->ysc->v == NULL || c->ysc->top_v == NULL || c->ysc->top_i == NULL
+      || c->ysc->bot_v == NULL || c->ysc->bot_i == NULL)
     return -1;
   for (size_t b = 0; b < nb; b++)
     c->ysc->top_i[b] = SIZE_MAX;
@@ -560,6 +573,8 @@ static void smooth_free(struct dctx *c)
     free(c->ysc->v);
     free(c->ysc->top_v);
     free(c->ysc->top_i);
+    free(c->ysc->bot_v);
+    free(c->ysc->bot_i);
   }
   free(c->ysc);
   c->ysc = NULL;
@@ -608,6 +623,24 @@ static size_t branch_end(const struct dctx *c, size_t i, double rise,
   double ym = dd_ys(c, rm);     /* the value at rm, kept */
 
   for (size_t k = i; k < c->n; k++) {
+    /* A whole block whose largest value stays within lim of the lowest
+     * so far (its own smallest included) holds no thaw: its smallest
+     * value and first index are where the running minimum would go. */
+    if (k % YS_BLOCK == 0 && k + YS_BLOCK <= c->n && !c->ys_nan) {
+      const struct ys_cache *yc = c->ysc;
+      size_t blk = k / YS_BLOCK;
+      if (yc->top_i[blk] == SIZE_MAX)
+        (void)dd_ys_fill(c, k);  /* fills the block, its extremes */
+      double lo = yc->bot_v[blk] < ym ? yc->bot_v[blk] : ym;
+      if (!(yc->top_v[blk] > lo + lim)) {
+        if (yc->bot_v[blk] < ym) {
+          ym = yc->bot_v[blk];
+          rm = yc->bot_i[blk];
+        }
+        k += YS_BLOCK - 1;
+        continue;
+      }
+    }
     double yk = dd_ys(c, k);
     if (yk < ym) {
       rm = k;
@@ -1310,6 +1343,35 @@ static int next_recalescence(const struct dctx *c, size_t from, size_t *m,
     size_t mi = j;
     while (c->t[j] - c->t[lo] > p->max_rise_s)
       lo++;
+    /* A whole block from j (a long warm hold): every window that ends in
+     * it starts at lo or later, so its minimum is at least the smallest
+     * of [lo, j) and of the block; when the block's largest value is less
+     * than a rise above that, no reading of the block ends a rise and the
+     * scan goes on after it, the block minima refilled for the windows
+     * that reach back into it. */
+    if (!scan && j % YS_BLOCK == 0 && j + YS_BLOCK <= c->n) {
+      const struct ys_cache *yc = c->ysc;
+      size_t blk = j / YS_BLOCK, jn = j + YS_BLOCK, lo2 = lo;
+      double low;
+      if (yc->top_i[blk] == SIZE_MAX)
+        (void)dd_ys_fill(c, j);  /* fills the block, its extremes */
+      low = yc->bot_v[blk];
+      for (size_t k = lo; k < j; k++)
+        if (dd_ys(c, k) < low)
+          low = dd_ys(c, k);
+      if (yc->top_v[blk] - low < rise) {
+        if (jn < c->n)
+          while (c->t[jn] - c->t[lo2] > p->max_rise_s)
+            lo2++;
+        bmin_reset(&bmn, lo2);
+        for (size_t k = lo2; k < jn && !scan; k++)
+          if (bmin_add(&bmn, k, dd_ys(c, k)) != 0)
+            scan = 1;          /* out of memory: fall back to the scan */
+        lo = lo2;
+        j = jn - 1;
+        continue;
+      }
+    }
     /* Without NaN (a sum that overflowed in the smoothing) the window's
      * minimum value decides; the scan below picks the same index as
      * always. The block bound settles most readings first; the exact

@@ -24,9 +24,13 @@ struct ys_cache {
   unsigned ways, last;         /* blocks kept; the one last read */
   /* Each block's largest value and its first index, kept once the block
    * has been filled (so a scan for the warmest point of a long stretch
-   * need not fill it again); top_i of a block never filled is SIZE_MAX. */
+   * need not fill it again); top_i of a block never filled is SIZE_MAX.
+   * Likewise its smallest value and first index (bot_v, bot_i), so scans
+   * that only ask whether a block could hold a rise settle it whole. */
   double *top_v;
   size_t *top_i;
+  double *bot_v;
+  size_t *bot_i;
 };
 
 /* One channel being analysed. Arrays borrowed from the caller. */

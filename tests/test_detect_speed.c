@@ -472,7 +472,10 @@ static void ys_setup(struct dctx *c)
   c->ysc->v = malloc((size_t)c->ysc->ways * YS_BLOCK * sizeof *c->ysc->v);
   c->ysc->top_v = malloc(nb * sizeof *c->ysc->top_v);
   c->ysc->top_i = malloc(nb * sizeof *c->ysc->top_i);
-  cr_assert(c->ysc->v && c->ysc->top_v && c->ysc->top_i);
+  c->ysc->bot_v = malloc(nb * sizeof *c->ysc->bot_v);
+  c->ysc->bot_i = malloc(nb * sizeof *c->ysc->bot_i);
+  cr_assert(c->ysc->v && c->ysc->top_v && c->ysc->top_i && c->ysc->bot_v
+            && c->ysc->bot_i);
   for (size_t b = 0; b < nb; b++)
     c->ysc->top_i[b] = SIZE_MAX;
 }
@@ -482,6 +485,8 @@ static void ys_free(struct dctx *c)
   free(c->ysc->v);
   free(c->ysc->top_v);
   free(c->ysc->top_i);
+  free(c->ysc->bot_v);
+  free(c->ysc->bot_i);
   free(c->ysc);
 }
 
@@ -678,6 +683,65 @@ Test(detect_speed, slope_break_after_a_long_warm_hold, .init = setup)
             "built at %.2f s", e->break_time_s - 3e6, tc);
   cr_assert(fabs(e->est[FF_METHOD_BREAK].value_c + 0.40) < 0.002,
             "break %.5f C", e->est[FF_METHOD_BREAK].value_c);
+  ff_event_list_release(&l);
+  gsl_rng_free(r);
+  free(t);
+  free(y);
+}
+
+/* ---- recalescence and thaw scans over long holds ------------------- */
+
+/* The recalescence scan passes over whole blocks of a warm hold, and the
+ * end-of-branch scan over whole blocks of a frozen hold, from the blocks'
+ * extremes: three cycles of a two-hour warm hold, Newton cooling,
+ * nucleation 1.3 K below the freezing point, a two-hour freezing branch and
+ * a thaw at 0.01 K/s, 10 Hz from a clock at 5e6 s with 3 mK of noise. Each
+ * nucleation and each thaw must be found where it was built. */
+Test(detect_speed, long_holds_keep_every_event, .init = setup)
+{
+  const double hold = 7200.0, tau = 500.0, bath = -8.0, warm = 5.0,
+               fp = -0.186, nucl = -1.5, frozen = 7200.0, rate = 0.01;
+  double tn = hold + tau * log((warm - bath) / (nucl - bath));
+  double ycold = fp - 2e-5 * frozen, cyc = tn + frozen + (warm - ycold)
+                                                        / rate + 60.0;
+  size_t n = (size_t)(3.0 * cyc * 10.0);
+  double *t = malloc(n * sizeof *t), *y = malloc(n * sizeof *y);
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+  struct ff_event_list l = FF_EVENT_LIST_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+
+  cr_assert(t && y && r);
+  gsl_rng_set(r, 9);
+  for (size_t i = 0; i < n; i++) {
+    double s = fmod((double)i * 0.1, cyc), v;
+    t[i] = 5e6 + (double)i * 0.1;
+    if (s < hold)
+      v = warm;
+    else if (s < tn)
+      v = bath + (warm - bath) * exp(-(s - hold) / tau);
+    else if (s < tn + frozen)
+      v = fp - 2e-5 * (s - tn) + (nucl - fp) * exp(-(s - tn) / 2.0);
+    else
+      v = fmin(warm, ycold + rate * (s - tn - frozen));
+    y[i] = round((v + gsl_ran_gaussian(r, 0.003)) * 1e4) / 1e4;
+  }
+  cr_assert_eq(ff_detect_run(t, y, n, NULL, &l, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(l.n, 3, "%zu events", l.n);
+  for (size_t k = 0; k < 3; k++) {
+    const struct ff_event *e = &l.v[k];
+    double t0 = 5e6 + (double)k * cyc;
+    cr_assert(!(e->flags & FF_FLAG_NO_NUCLEATION), "cycle %zu", k);
+    cr_assert(fabs(e->nucleation_time_s - (t0 + tn)) < 2.0, "cycle %zu: "
+              "nucleation at %.1f s, built at %.1f s", k,
+              e->nucleation_time_s - t0, tn);
+    cr_assert(fabs(e->t_min_c - nucl) < 0.02, "cycle %zu: minimum %.4f C",
+              k, e->t_min_c);
+    /* the branch ends where the thaw leaves its level */
+    cr_assert(e->branch_end_s > t0 + tn + frozen - 120.0
+              && e->branch_end_s < t0 + tn + frozen + 30.0, "cycle %zu: "
+              "branch ends at %.1f s, thaw at %.1f s", k,
+              e->branch_end_s - t0, tn + frozen);
+  }
   ff_event_list_release(&l);
   gsl_rng_free(r);
   free(t);
