@@ -196,10 +196,44 @@ static int check_input(const double *t, const double *y, size_t n,
   double ymax = fabs(y[0]), step = INFINITY;
   size_t zeros = 0;
 
+  size_t i = 1;
+
   memcpy(&a0, &t[0], sizeof a0);
   memcpy(&b0, &y[0], sizeof b0);
   bad = ((a0 & e) == e) | ((b0 & e) == e);
-  for (size_t i = 1; i < n; i++) {
+#ifdef __SSE2__
+  /* Two readings a register: x * 0 is NaN only when x is not finite; the
+   * smallest change and the largest reading are exact whatever the order,
+   * the counts are counts, so the same results as the loop below. */
+  {
+    const __m128d sign = _mm_set1_pd(-0.0), zero = _mm_setzero_pd(),
+                  inf = _mm_set1_pd(INFINITY);
+    __m128d vbad = zero, vok = _mm_cmpeq_pd(zero, zero), vstep = inf,
+            vmax = _mm_set1_pd(ymax);
+    double l[2];
+    for (; i + 2 <= n; i += 2) {
+      __m128d tc = _mm_loadu_pd(t + i), tp = _mm_loadu_pd(t + i - 1),
+              yc = _mm_loadu_pd(y + i), yp = _mm_loadu_pd(y + i - 1);
+      __m128d s = _mm_andnot_pd(sign, _mm_sub_pd(yc, yp));
+      __m128d pos = _mm_cmpgt_pd(s, zero);
+      int m = _mm_movemask_pd(pos);
+      vbad = _mm_or_pd(vbad, _mm_cmpunord_pd(_mm_mul_pd(tc, zero),
+                                             _mm_mul_pd(yc, zero)));
+      vok = _mm_and_pd(vok, _mm_cmpgt_pd(tc, tp));
+      zeros += 2 - (size_t)(m & 1) - (size_t)(m >> 1);
+      vstep = _mm_min_pd(vstep, _mm_or_pd(_mm_and_pd(pos, s),
+                                          _mm_andnot_pd(pos, inf)));
+      vmax = _mm_max_pd(_mm_andnot_pd(sign, yc), vmax);
+    }
+    bad |= _mm_movemask_pd(vbad) != 0;
+    ok &= _mm_movemask_pd(vok) == 3;
+    _mm_storeu_pd(l, vstep);
+    step = l[0] < l[1] ? l[0] : l[1];
+    _mm_storeu_pd(l, vmax);
+    ymax = l[0] > l[1] ? l[0] : l[1];
+  }
+#endif
+  for (; i < n; i++) {
     uint64_t a, b;
     double s = fabs(y[i] - y[i - 1]), ay = fabs(y[i]);
     memcpy(&a, &t[i], sizeof a);
@@ -215,7 +249,7 @@ static int check_input(const double *t, const double *y, size_t n,
   sc->zeros = zeros;
   if (ok && !bad)
     return FF_OK;
-  for (size_t i = 0; i < n; i++) {
+  for (i = 0; i < n; i++) {
     if (!isfinite(t[i]) || !isfinite(y[i]))
       return ff_diag_set(d, FF_EINPUT, NULL, "reading %zu is not a finite "
                          "number (compact missing values first)", i + 1);

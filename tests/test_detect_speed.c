@@ -747,3 +747,68 @@ Test(detect_speed, long_holds_keep_every_event, .init = setup)
   free(t);
   free(y);
 }
+
+/* ---- the input check, two readings at a time ----------------------- */
+
+/* A long channel's input check names the first reading that is not a
+ * finite number, or where time does not increase, wherever it lies (odd
+ * or even index, first or last); on sound readings quantised to 1 mK the
+ * resolution found is the smallest change, as a plain loop finds it. */
+Test(detect_speed, input_check_names_the_reading, .init = setup)
+{
+  size_t sizes[] = { 100000, 100001 };
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+
+  cr_assert(r != NULL);
+  for (size_t z = 0; z < 2; z++) {
+    size_t n = sizes[z], at[] = { 0, 1, 2, 777, 778, n - 2, n - 1 };
+    double *t = malloc(n * sizeof *t), *y = malloc(n * sizeof *y);
+    struct ff_event_list l = FF_EVENT_LIST_INIT;
+    struct ff_diag d = FF_DIAG_INIT;
+    double step = INFINITY, tn = 500.0 * log(2.0);   /* at -1.5 C */
+    cr_assert(t && y);
+    for (size_t i = 0; i < n; i++) {
+      double s = (double)i * 0.1;
+      t[i] = 1e5 + s;
+      /* cooling from 5 C, a nucleation at -1.5 C and a slow branch */
+      y[i] = s < tn ? -8.0 + 13.0 * exp(-s / 500.0)
+             : -0.186 - 2e-5 * (s - tn) - 1.314 * exp(-(s - tn) / 2.0);
+      y[i] = round((y[i] + gsl_ran_gaussian(r, 0.003)) * 1e3) / 1e3;
+    }
+    for (size_t i = 1; i < n; i++) {
+      double s = fabs(y[i] - y[i - 1]);
+      if (s > 0.0 && s < step)
+        step = s;
+    }
+    cr_assert_eq(ff_detect_run(t, y, n, NULL, &l, &d), FF_OK, "%s", d.msg);
+    cr_assert(l.n >= 1);
+    cr_assert(same_bits(l.v[0].resolution_k, step), "resolution %.17g, "
+              "smallest change %.17g", l.v[0].resolution_k, step);
+    ff_event_list_release(&l);
+    for (size_t k = 0; k < sizeof at / sizeof at[0]; k++) {
+      char want[64];
+      for (int what = 0; what < 3; what++) {
+        double keep_t = t[at[k]], keep_y = y[at[k]];
+        if (what == 0)
+          y[at[k]] = NAN;
+        else if (what == 1)
+          t[at[k]] = -INFINITY;
+        else if (at[k] > 0)
+          t[at[k]] = t[at[k] - 1];     /* time stands still */
+        else
+          continue;
+        d = (struct ff_diag)FF_DIAG_INIT;
+        cr_assert_eq(ff_detect_run(t, y, n, NULL, &l, &d), FF_EINPUT,
+                     "n %zu reading %zu case %d", n, at[k], what);
+        snprintf(want, sizeof want, "reading %zu ", at[k] + 1);
+        cr_assert(strstr(d.msg, want) != NULL, "n %zu case %d: '%s', "
+                  "expected %s", n, what, d.msg, want);
+        t[at[k]] = keep_t;
+        y[at[k]] = keep_y;
+      }
+    }
+    free(t);
+    free(y);
+  }
+  gsl_rng_free(r);
+}
