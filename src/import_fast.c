@@ -8,7 +8,12 @@
  * exactly, one slot a line; pass 2 parses each chunk into its slots, 1 MiB
  * preads at a time; then compact() drops the slots that are no kept row
  * (blank and comment lines, missing, repeated or backwards times, rows
- * without a temperature) in file order, as the general reader does. */
+ * without a temperature) in file order, as the general reader does.
+ *
+ * Rows of plain numbers (no clock or ISO time) take parse_plain(), which
+ * turns each cell into its value as it is read. The number shortcut loads
+ * runs of digits 8 bytes at a time, so every block buffer carries FAST_PAD
+ * zero bytes after its text. */
 
 /* madvise(MADV_POPULATE_WRITE) is a Linux extension; this file asks for
  * it (without it, the pages fault in one by one as before). */
