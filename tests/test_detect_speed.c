@@ -812,3 +812,72 @@ Test(detect_speed, input_check_names_the_reading, .init = setup)
   }
   gsl_rng_free(r);
 }
+
+/* ---- each smoothed block's extremes ---------------------------------- */
+
+/* Each filled block keeps its largest and smallest smoothed value and the
+ * first index of each, as a plain loop with strict comparisons finds them:
+ * quantised readings (many ties), a flat channel (all ties), and extremes
+ * placed at a block's first, second and last reading, at 10 Hz. */
+Test(detect_speed, block_extremes_match_a_plain_scan, .init = setup)
+{
+  size_t n = 5 * YS_BLOCK + 123;
+  double *t = malloc(n * sizeof *t), *y = malloc(n * sizeof *y);
+  gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+  struct ff_detect_params p = FF_DETECT_PARAMS_DEFAULT;
+
+  cr_assert(t && y && r);
+  for (int pattern = 0; pattern < 4; pattern++) {
+    struct dctx c;
+    size_t nb = (n + YS_BLOCK - 1) / YS_BLOCK;
+    for (size_t i = 0; i < n; i++) {
+      t[i] = 2e5 + (double)i * 0.1;
+      y[i] = pattern == 1 ? 3.0
+             : round((2.0 + gsl_ran_gaussian(r, 0.002)) * 1e3) / 1e3;
+    }
+    if (pattern >= 2)          /* spikes the smoothing spreads over 21 */
+      for (size_t b = 0; b < nb; b++) {
+        size_t at = b * YS_BLOCK + (pattern == 2 ? 1 : 0);
+        if (at < n)
+          y[at] += pattern == 2 ? 1.0 : -1.0;
+        at = b * YS_BLOCK + YS_BLOCK - 1;
+        if (at < n)
+          y[at] += pattern == 2 ? -1.0 : 1.0;
+      }
+    memset(&c, 0, sizeof c);
+    c.t = t;
+    c.y = y;
+    c.n = n;
+    c.p = &p;
+    c.dt = 0.1;
+    ys_setup(&c);
+    for (size_t b = 0; b < nb; b++) {
+      size_t i0 = b * YS_BLOCK, i1 = i0 + YS_BLOCK < n ? i0 + YS_BLOCK : n;
+      size_t at = i0, bt = i0;
+      double tv, bv;
+      (void)dd_ys_fill(&c, i0);
+      tv = bv = dd_ys(&c, i0);
+      for (size_t i = i0 + 1; i < i1; i++) {
+        double v = dd_ys(&c, i);
+        if (v > tv) {
+          tv = v;
+          at = i;
+        }
+        if (v < bv) {
+          bv = v;
+          bt = i;
+        }
+      }
+      cr_assert(same_bits(c.ysc->top_v[b], tv) && c.ysc->top_i[b] == at,
+                "pattern %d block %zu: top %.17g at %zu, plain %.17g at %zu",
+                pattern, b, c.ysc->top_v[b], c.ysc->top_i[b], tv, at);
+      cr_assert(same_bits(c.ysc->bot_v[b], bv) && c.ysc->bot_i[b] == bt,
+                "pattern %d block %zu: bottom %.17g at %zu, plain %.17g at "
+                "%zu", pattern, b, c.ysc->bot_v[b], c.ysc->bot_i[b], bv, bt);
+    }
+    ys_free(&c);
+  }
+  gsl_rng_free(r);
+  free(t);
+  free(y);
+}
