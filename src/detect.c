@@ -525,6 +525,51 @@ static void smooth_block(const struct dctx *c, size_t i0, size_t i1,
     out[j - i0] = smooth_at(c, j);
 }
 
+/*
+ * The largest and smallest of v[0, len) (len >= 1) and the first index of
+ * each, as a loop with strict comparisons finds them when no value is NaN
+ * (the callers use them only then; with a NaN they are some value and
+ * index of the block). The extremes are exact in any order, so they are
+ * taken four at a time; the first index is then the first value not
+ * below (not above) it.
+ */
+static void block_extremes(const double *v, size_t len, double *tv,
+                           size_t *at, double *bv, size_t *bt)
+{
+  double hi = v[0], lo = v[0];
+  size_t j = 1, k;
+
+#ifdef __SSE2__
+  {
+    __m128d a0 = _mm_set1_pd(v[0]), a1 = a0, b0 = a0, b1 = a0;
+    double l[4];
+    for (; j + 4 <= len; j += 4) {
+      __m128d x0 = _mm_loadu_pd(v + j), x1 = _mm_loadu_pd(v + j + 2);
+      a0 = _mm_max_pd(x0, a0);
+      a1 = _mm_max_pd(x1, a1);
+      b0 = _mm_min_pd(x0, b0);
+      b1 = _mm_min_pd(x1, b1);
+    }
+    _mm_storeu_pd(l, _mm_max_pd(a0, a1));
+    _mm_storeu_pd(l + 2, _mm_min_pd(b0, b1));
+    hi = l[0] > l[1] ? l[0] : l[1];
+    lo = l[2] < l[3] ? l[2] : l[3];
+  }
+#endif
+  for (; j < len; j++) {
+    hi = v[j] > hi ? v[j] : hi;
+    lo = v[j] < lo ? v[j] : lo;
+  }
+  for (k = 0; k + 1 < len && v[k] < hi; k++)
+    ;
+  *tv = v[k];
+  *at = k;
+  for (k = 0; k + 1 < len && v[k] > lo; k++)
+    ;
+  *bv = v[k];
+  *bt = k;
+}
+
 double dd_ys_fill(const struct dctx *c, size_t i)
 {
   struct ys_cache *k = c->ysc;
@@ -549,18 +594,9 @@ double dd_ys_fill(const struct dctx *c, size_t i)
   smooth_block(c, i0, i1, k->v + (size_t)w * YS_BLOCK);
   {
     const double *v = k->v + (size_t)w * YS_BLOCK;
-    size_t at = 0, bt = 0;
-    double tv = v[0], bv = v[0];
-    for (size_t j = 1; j < i1 - i0; j++) {
-      if (v[j] > tv) {
-        tv = v[j];
-        at = j;
-      }
-      if (v[j] < bv) {
-        bv = v[j];
-        bt = j;
-      }
-    }
+    size_t at, bt;
+    double tv, bv;
+    block_extremes(v, i1 - i0, &tv, &at, &bv, &bt);
     k->top_v[tag - 1] = tv;
     k->top_i[tag - 1] = i0 + at;
     k->bot_v[tag - 1] = bv;
