@@ -825,6 +825,11 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
   if (st == FF_EIO)
     return no_memory(out, d);
 
+  /* 5. Replicates of one solution (series_repl.c): read the runs only, so
+   * no status changes; the fits above already use every run. */
+  if (ff_series_replicates(out) != FF_OK)
+    return no_memory(out, d);
+
   /* Overall status: bad input first, then untrusted. */
   int any_input = 0, any_untrusted = 0, any_io = 0;
   const struct ff_diag *first = NULL;
@@ -874,6 +879,7 @@ void ff_series_release(struct ff_series *s)
     free(s->unknowns[i].runs);
   for (size_t i = 0; i < s->n_ds; i++)
     ff_dataset_free(s->ds[i]);
+  series_repl_release(s);
   free(s->solutes);
   free(s->unknowns);
   free(s->kfcal);

@@ -15,4 +15,7 @@ void series_fail(const struct ff_sheet *sh, struct ff_series_run *r, int col,
 int series_fit(struct ff_series *s, const struct ff_sheet *sh,
                const struct ff_series_opts *o);
 
+/* Frees the replicate groups (series_repl.c); for ff_series_release. */
+void series_repl_release(struct ff_series *s);
+
 #endif /* FF_SERIES_IMPL_H */

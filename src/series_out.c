@@ -258,6 +258,42 @@ static json_t *unknown_json(const struct ff_series *s,
   return o;
 }
 
+/* One replicate group: the keys of docs/formats/series-output.md. */
+static json_t *repl_json(const struct ff_series *s,
+                         const struct ff_series_repl *g)
+{
+  json_t *o = json_object(), *runs = json_array(), *flags = json_array();
+  char note[256];
+
+  ff_json_set_str(o, "role", ff_sheet_role_name(g->role));
+  ff_json_set_str(o, "solute", g->solute);
+  ff_json_set_str(o, "solvent", g->solvent);
+  ff_json_set_num(o, "molality_mol_kg", g->molality_mol_kg);
+  ff_json_set_num(o, "concentration_g_kg", g->conc_g_kg);
+  json_object_set_new(o, "n", json_integer((json_int_t)g->n));
+  for (size_t k = 0; k < g->n; k++)
+    json_array_append_new(runs, ff_json_str(
+                            s->sheet->row[s->runs[g->runs[k]].row].run));
+  json_object_set_new(o, "runs", runs);
+  ff_json_set_num(o, "depression_mean_k", g->depression_mean_k);
+  ff_json_set_num(o, "depression_sd_k", g->depression_sd_k);
+  ff_json_set_num(o, "depression_se_k", g->depression_se_k);
+  ff_json_set_num(o, "depression_weighted_k", g->depression_weighted_k);
+  ff_json_set_num(o, "u_depression_weighted_k", g->u_depression_weighted_k);
+  ff_json_set_num(o, "chi2", g->chi2);
+  json_object_set_new(o, "dof", json_integer((json_int_t)g->dof));
+  ff_json_set_num(o, "p_value", g->p_value);
+  ff_json_set_num(o, "birge_ratio", g->birge_ratio);
+  ff_json_set_num(o, "vant_hoff_i_mean", g->vant_hoff_i_mean);
+  ff_json_set_num(o, "vant_hoff_i_sd", g->vant_hoff_i_sd);
+  if (g->flags & FF_SERIES_REPL_SCATTER)
+    json_array_append_new(flags, ff_json_str("replicate_scatter"));
+  json_object_set_new(o, "flags", flags);
+  ff_series_repl_note(g, note, sizeof note);
+  ff_json_set_str(o, "note", note[0] ? note : NULL);
+  return o;
+}
+
 json_t *ff_series_to_json(const struct ff_series *s)
 {
   json_t *root = json_object(), *runs = json_array(), *sol = json_array();
@@ -292,6 +328,12 @@ json_t *ff_series_to_json(const struct ff_series *s)
   json_object_set_new(root, "kf_calibrations", cal);
   json_object_set_new(root, "solutes", sol);
   json_object_set_new(root, "unknowns", unk);
+  {
+    json_t *rep = json_array();
+    for (size_t k = 0; rep != NULL && k < s->n_repl; k++)
+      json_array_append_new(rep, repl_json(s, &s->repl[k]));
+    json_object_set_new(root, "replicates", rep);
+  }
   json_object_set_new(root, "runs_failed",
                       json_integer((json_int_t)s->n_failed));
   return root;

@@ -131,6 +131,53 @@ struct ff_series_unknown {
   struct ff_mm_result mm;
 };
 
+/*
+ * Replicates: good runs (status FF_OK) that measured the same solution.
+ * Rule (series_repl.c): same role (sample, unknown or standard; blanks
+ * never), same solvent and solute (case-insensitive, as the solute groups)
+ * and molality equal within FF_SERIES_REPL_REL_TOL relative (unknowns,
+ * whose molality is not known: concentration in g solute per kg solvent).
+ * A row reading a freeze already in the group (same data file, channel and
+ * cycle, e.g. with another method) is one measurement read twice and is
+ * left out. Two runs or more make a group. Plain data but runs (owned).
+ */
+#define FF_SERIES_REPL_REL_TOL 1e-6
+#define FF_SERIES_REPL_P_FLAG 0.01  /* p below this: scatter flagged */
+#define FF_SERIES_REPL_SCATTER 1u   /* flag: scatter exceeds the stated u */
+struct ff_series_repl {
+  enum ff_sheet_role role;
+  char solute[128], solvent[64];
+  double molality_mol_kg;      /* of the first run; NaN for unknowns */
+  double conc_g_kg;            /* unknowns: g per kg solvent; NaN else */
+  size_t n;                    /* runs, >= 2 */
+  size_t *runs;                /* n indices into ff_series.runs, owned */
+  /* Depression: plain mean, sample SD s (n - 1) and s/sqrt(n). */
+  double depression_mean_k, depression_sd_k, depression_se_k;
+  /* Inverse-variance weighted mean of the depressions with u from the
+   * stated u(dT), chi2 about it with dof = n - 1, p = Q(chi2 | dof) and the
+   * Birge ratio sqrt(chi2/dof). NaN when any stated u is not positive. */
+  double depression_weighted_k, u_depression_weighted_k;
+  double chi2;
+  size_t dof;
+  double p_value, birge_ratio;
+  /* van 't Hoff i: plain mean and SD; NaN when a run has no i. */
+  double vant_hoff_i_mean, vant_hoff_i_sd;
+  unsigned flags;              /* FF_SERIES_REPL_SCATTER */
+};
+
+/*
+ * The statistics of one group from its n depressions dt_k with stated
+ * u_dt_k and van 't Hoff factors vh_i (NaN where none); all borrowed.
+ * Fills every number and flag of g (not its names or runs). n >= 2.
+ */
+void ff_series_repl_stats(struct ff_series_repl *g, const double *dt_k,
+                          const double *u_dt_k, const double *vh_i, size_t n);
+
+/* The sentence behind FF_SERIES_REPL_SCATTER, with g's Birge ratio, into
+ * buf (n bytes); "" when g is not flagged. Returns buf. */
+const char *ff_series_repl_note(const struct ff_series_repl *g, char *buf,
+                                size_t n);
+
 /* The whole result. _INIT, ff_series_run, then _release. */
 struct ff_series {
   const struct ff_sheet *sheet;        /* borrowed */
@@ -145,6 +192,8 @@ struct ff_series {
   size_t n_ds;
   struct ff_dataset **ds;              /* each data file read once, owned */
   size_t n_failed;                     /* runs without a result */
+  size_t n_repl;                       /* replicate groups, sheet order */
+  struct ff_series_repl *repl;         /* of their first runs */
 };
 #define FF_SERIES_INIT { 0 }
 
@@ -163,6 +212,14 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
                   struct ff_series *out, struct ff_diag *d);
 
 void ff_series_release(struct ff_series *s);
+
+/*
+ * Groups s->runs into replicates (the rule above ff_series_repl) and fills
+ * s->repl; any earlier groups are freed first. ff_series_run calls it; for
+ * a series built by hand, s->sheet and s->runs must be set. Returns FF_OK,
+ * or FF_EIO when out of memory (then no groups).
+ */
+int ff_series_replicates(struct ff_series *s);
 
 /*
  * Particles of one formula unit, from (in this order) the z_plus/z_minus

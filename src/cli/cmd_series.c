@@ -219,6 +219,45 @@ static void print_runs(const struct ff_series *s)
   }
 }
 
+/* Replicate groups (series.h's rule), one line each, the scatter note
+ * below a flagged one. Nothing when there are none. */
+static void print_replicates(const struct ff_series *s)
+{
+  char m[64], a[64], b[64], r[32], p[32], note[256];
+
+  if (s->n_repl == 0)
+    return;
+  printf("\nreplicates (same solution measured again)\n");
+  printf("%-22s %-20s %-3s %-24s %-24s %-6s %-8s %s\n", "solute", "amount",
+         "n", "mean dT +/- s (K)", "weighted dT +/- u (K)", "R", "p",
+         "flag");
+  for (size_t k = 0; k < s->n_repl; k++) {
+    const struct ff_series_repl *g = &s->repl[k];
+    if (isfinite(g->molality_mol_kg))
+      snprintf(m, sizeof m, "%.6f mol/kg", g->molality_mol_kg);
+    else if (isfinite(g->conc_g_kg))
+      snprintf(m, sizeof m, "%.3f g/kg", g->conc_g_kg);
+    else
+      snprintf(m, sizeof m, "-");
+    printf("%-22s %-20s %-3zu %-24s %-24s %-6s %-8s %s\n", g->solute, m, g->n,
+           pm(a, sizeof a, g->depression_mean_k, g->depression_sd_k),
+           pm(b, sizeof b, g->depression_weighted_k,
+              g->u_depression_weighted_k),
+           num(r, sizeof r, 2, g->birge_ratio),
+           num(p, sizeof p, -1, g->p_value),
+           g->flags & FF_SERIES_REPL_SCATTER ? "scatter" : "-");
+    printf("  runs:");
+    for (size_t j = 0; j < g->n; j++)
+      printf(" %s", s->sheet->row[s->runs[g->runs[j]].row].run);
+    if (isfinite(g->vant_hoff_i_mean))
+      printf("; i %s (mean +/- s)", pm(a, sizeof a, g->vant_hoff_i_mean,
+                                       g->vant_hoff_i_sd));
+    printf("\n");
+    if (ff_series_repl_note(g, note, sizeof note)[0])
+      printf("  %s\n", note);
+  }
+}
+
 /* One line on the Monte Carlo cross-check of u(i) over all runs. */
 static void print_mc(const struct ff_series *s)
 {
@@ -408,6 +447,7 @@ static void print_table(const struct ff_series *s)
   printf("series %s: %zu run%s, %zu without a result\n\n", s->sheet->path,
          s->n_runs, s->n_runs == 1 ? "" : "s", s->n_failed);
   print_runs(s);
+  print_replicates(s);
   print_mc(s);
   print_kf(s);
   if (s->n_solutes > 0)
