@@ -96,3 +96,50 @@ expect_rc 0
 expect_out 'calibration: cyclohexane Kf = 20\.[0-9]+ \+/- 0\.[0-9]+ K kg/mol from 1 standard \(S1\)'
 expect_out '^  20\.[0-9]+ \+/- 0\.[0-9]+ K kg/mol from standard \(S1\): U2$'
 expect_out '^  20\.8 K kg/mol from table \(cyclohexane\): S1$'
+
+# Replicates: the demo's NACL-0.050 and NACL-0.050r are one solution
+# measured twice (synthetic data); a run with no result (NACL-0.100r) joins
+# no group; blanks never group.
+D="$ROOT/datasets/demo/sheet.csv"
+CASE="series replicates section (demo sheet)"; run "$FF" series --quiet "$D"
+expect_rc 3
+expect_out '^replicates \(same solution measured again\)$'
+expect_out '^sodium chloride +0\.050000 mol/kg +2 +0\.1755[0-9]+ \+/- 0\.0000[0-9]+ +0\.175[0-9]+ \+/- 0\.000[0-9]+ +[0-9.]+ +[0-9.e-]+ +-$'
+expect_out '^  runs: NACL-0\.050 NACL-0\.050r; i 1\.88[0-9]+ \+/- '
+awk '/^replicates/{on=1} on&&/^$/{exit} on' "$OUT" > "$TMP/repl"
+if grep -Eq '^(sodium chloride +0\.100|urea|water)|W-B|NACL-0\.100r' "$TMP/repl"
+then bad "a lone run, a failed run or a blank grouped"; else ok; fi
+if [ "$(grep -c 'mol/kg  ' "$TMP/repl")" = 1 ]; then ok; else bad "one group wanted"; fi
+if grep -qi 'nan' "$OUT"; then bad "NaN in the table"; else ok; fi
+
+CASE="series --json replicates (demo sheet)"; run "$FF" series --quiet --json "$D"
+expect_rc 3; expect_json
+if python3 -c 'import json,sys,math; d=json.load(open(sys.argv[1]))
+g=d["replicates"]
+assert len(g)==1, g
+g=g[0]
+for k in ("role","solute","solvent","molality_mol_kg","n","runs",
+          "depression_mean_k","depression_sd_k","depression_se_k",
+          "depression_weighted_k","u_depression_weighted_k","chi2","dof",
+          "p_value","birge_ratio","vant_hoff_i_mean","vant_hoff_i_sd",
+          "flags","note"): assert k in g, k
+assert g["runs"]==["NACL-0.050","NACL-0.050r"] and g["n"]==2 and g["dof"]==1
+r={x["run"]:x for x in d["runs"]}
+a,b=r["NACL-0.050"]["depression_k"],r["NACL-0.050r"]["depression_k"]
+assert abs(g["depression_mean_k"]-(a+b)/2) < 1e-9
+assert abs(g["depression_sd_k"]-abs(a-b)/math.sqrt(2)) < 1e-9
+assert 0 < g["p_value"] <= 1 and g["birge_ratio"] >= 0
+assert (g["p_value"] < 0.01) == ("replicate_scatter" in g["flags"])
+' "$OUT" 2>"$TMP/py"; then ok; else bad "replicates json: $(cat "$TMP/py")"; fi
+if python3 -c 'import json,sys
+def no(c): raise ValueError(c)
+json.load(open(sys.argv[1]), parse_constant=no)' "$OUT" 2>/dev/null
+then ok; else bad "NaN or Infinity in JSON"; fi
+
+CASE="series: one freeze read two ways is not a replicate"
+run "$FF" series --quiet "$S/peak.csv"
+expect_rc 0
+if grep -q '^replicates' "$OUT"; then bad "peak and auto reading grouped"; else ok; fi
+run "$FF" series --quiet --json "$S/peak.csv"
+if python3 -c 'import json,sys; d=json.load(open(sys.argv[1]))
+assert d["replicates"]==[]' "$OUT" 2>/dev/null; then ok; else bad "json replicates not empty"; fi
