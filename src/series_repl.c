@@ -144,14 +144,13 @@ static int same_solution(const struct ff_series *s,
 }
 
 /* Two rows reading the same freeze (same data file, channel and cycle;
- * e.g. another method) are one measurement read twice, not replicates. */
-static int same_freeze(const struct ff_series *s,
-                       const struct ff_series_run *a,
+ * e.g. another method) are one measurement read twice, not replicates.
+ * The cycle is the event's own, so "last" and its number are the same. */
+static int same_freeze(const struct ff_series_run *a,
                        const struct ff_series_run *b)
 {
   return a->has_event && b->has_event && a->dataset == b->dataset
-         && a->channel == b->channel
-         && s->sheet->row[a->row].cycle == s->sheet->row[b->row].cycle;
+         && a->channel == b->channel && a->event.cycle == b->event.cycle;
 }
 
 static void groups_free(struct ff_series *s)
@@ -215,7 +214,7 @@ int ff_series_replicates(struct ff_series *s)
           || !same_solution(s, &s->runs[k], &s->runs[j]))
         continue;
       for (size_t i = 0; i < m; i++)
-        again |= same_freeze(s, &s->runs[members[i]], &s->runs[j]);
+        again |= same_freeze(&s->runs[members[i]], &s->runs[j]);
       if (!again)
         members[m++] = j;
     }

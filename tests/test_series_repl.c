@@ -59,6 +59,7 @@ static struct ff_series_run *add(struct hand *h, const char *id,
   r->status = FF_OK;
   r->solvent = &h->water;
   r->has_event = 1;
+  r->event.cycle = 1;
   r->dataset = k;
   r->tf_c = -dt;
   r->depression_k = dt;
@@ -262,7 +263,11 @@ Test(series_repl, same_freeze_read_twice_is_not_a_replicate)
   h.runs[1].dataset = h.runs[0].dataset;
   group(&h);
   cr_expect_eq(h.s.n_repl, 0);
+  h.rows[1].cycle = FF_SHEET_CYCLE_LAST;  /* "last" read cycle 1 */
+  group(&h);
+  cr_expect_eq(h.s.n_repl, 0, "cycle 'last' that is cycle 1: same freeze");
   h.rows[1].cycle = 2;
+  h.runs[1].event.cycle = 2;
   group(&h);
   cr_expect_eq(h.s.n_repl, 1, "cycle 2 of the same tube is a replicate");
   hand_release(&h);

@@ -143,3 +143,14 @@ if grep -q '^replicates' "$OUT"; then bad "peak and auto reading grouped"; else 
 run "$FF" series --quiet --json "$S/peak.csv"
 if python3 -c 'import json,sys; d=json.load(open(sys.argv[1]))
 assert d["replicates"]==[]' "$OUT" 2>/dev/null; then ok; else bad "json replicates not empty"; fi
+
+CASE="series: three freeze cycles of one tube are one replicate group"
+"$FF" simulate --seed 5 --out "$TMP/rb.csv" >/dev/null 2>&1
+"$FF" simulate --molality 0.1 --i 1.9 --cycles 3 --freeze-s 400 \
+  --supercool 1 --seed 3 --out "$TMP/rs.csv" >/dev/null 2>&1
+printf '# synthetic\nrun,file,channel,cycle,role,solvent,solute,molality,particles,blank\nB,rb.csv,1,1,blank,water,,,,\nS1,rs.csv,1,1,sample,water,NaCl,0.1,2,B\nS2,rs.csv,1,2,sample,water,NaCl,0.1,2,B\nS3,rs.csv,1,3,sample,water,NaCl,0.1,2,B\nSL,rs.csv,1,last,sample,water,NaCl,0.1,2,B\n' > "$TMP/rsheet.csv"
+run "$FF" series --quiet "$TMP/rsheet.csv"
+expect_rc 3    # one molality: no fit of the solute
+expect_out '^NaCl +0\.100000 mol/kg +3 +0\.35[0-9]+ \+/- 0\.000[0-9]+ '
+# SL reads cycle 3 again ("last"): the same freeze, not a fourth replicate
+expect_out '^  runs: S1 S2 S3; i 1\.9[0-9]* \+/- '
