@@ -586,22 +586,101 @@ static void unknown_mass(const struct ff_sheet *sh, struct ff_series_run *r,
     series_fail(sh, r, -1, md.status, "%s", md.msg);
 }
 
-/* ---- Kf: sheet, standards of the solvent, table ---- */
+/* ---- probes ---- */
 
+/* Probe ids are labels typed by hand: "p1" and "P1" are one probe. */
+static int same_probe(const char *a, const char *b)
+{
+  return strcasecmp(a, b) == 0;
+}
+
+const char *ff_series_run_flag_name(unsigned flag)
+{
+  switch (flag) {
+  case FF_SERIES_RUN_BLANK_OTHER_PROBE: return "blank_other_probe";
+  case FF_SERIES_RUN_KF_OTHER_PROBES: return "kf_other_probes";
+  default: break;
+  }
+  return "?";
+}
+
+static const struct ff_series_kfcal *find_cal(const struct ff_series_kfcal *v,
+                                              size_t n, const char *solvent,
+                                              const char *probe)
+{
+  for (size_t k = 0; k < n; k++)
+    if (strcasecmp(v[k].solvent, solvent) == 0
+        && same_probe(v[k].probe, probe))
+      return &v[k];
+  return NULL;
+}
+
+/* The pooled calibration of a solvent (every standard, probe or not). */
 static const struct ff_series_kfcal *kfcal_of(const struct ff_series *s,
                                               const char *solvent)
 {
-  for (size_t k = 0; k < s->n_kfcal; k++)
-    if (strcasecmp(s->kfcal[k].solvent, solvent) == 0)
-      return &s->kfcal[k];
-  return NULL;
+  return find_cal(s->kfcal, s->n_kfcal, solvent, "");
+}
+
+const char *ff_series_run_note(const struct ff_series *s,
+                               const struct ff_series_run *r, unsigned flag,
+                               char *buf, size_t n)
+{
+  const struct ff_sheet_row *row = &s->sheet->row[r->row];
+  const struct ff_series_kfcal *cal;
+
+  if (n == 0)
+    return buf;
+  buf[0] = '\0';
+  if (!(r->flags & flag))
+    return buf;
+  if (flag == FF_SERIES_RUN_BLANK_OTHER_PROBE && row->blank_row >= 0) {
+    const struct ff_sheet_row *b = &s->sheet->row[row->blank_row];
+    snprintf(buf, n, "the blank '%s' was measured on probe %s, this run on "
+             "probe %s: their calibration offsets do not cancel", b->run,
+             b->probe, row->probe);
+  } else if (flag == FF_SERIES_RUN_KF_OTHER_PROBES && r->solvent != NULL
+             && (cal = kfcal_of(s, r->solvent->name)) != NULL) {
+    snprintf(buf, n, "no standard of %s on probe %s: Kf pooled from %s, "
+             "none of them on probe %s, so the gain error of probe %s is "
+             "not calibrated", cal->solvent, row->probe, cal->runs,
+             row->probe, row->probe);
+  }
+  return buf;
+}
+
+/* A run and its blank on different probes: each probe's offset shifts its
+ * own readings, so the depression keeps their difference. Sheet facts
+ * only: set before anything is computed, kept whatever happens later. */
+static void check_blank_probe(const struct ff_sheet *sh,
+                              struct ff_series_run *r)
+{
+  const struct ff_sheet_row *row = &sh->row[r->row];
+  const struct ff_sheet_row *b;
+
+  if (row->role == FF_SHEET_BLANK || row->role == FF_SHEET_ROLE_NONE
+      || row->blank_row < 0 || row->probe[0] == '\0')
+    return;
+  b = &sh->row[row->blank_row];
+  if (b->probe[0] != '\0' && !same_probe(b->probe, row->probe))
+    r->flags |= FF_SERIES_RUN_BLANK_OTHER_PROBE;
+}
+
+/* ---- Kf: sheet, standards of the solvent (same probe first), table ---- */
+
+static void use_cal(struct ff_series_run *r,
+                    const struct ff_series_kfcal *cal)
+{
+  r->kf_k_kg_mol = cal->kf_k_kg_mol;
+  r->u_kf_k_kg_mol = cal->u_kf_k_kg_mol;
+  r->kf_source = FF_KF_STANDARD;
 }
 
 static void choose_kf(const struct ff_series *s, const struct ff_sheet *sh,
                       struct ff_series_run *r)
 {
   const struct ff_sheet_row *row = &sh->row[r->row];
-  const struct ff_series_kfcal *cal;
+  const struct ff_series_kfcal *cal, *own;
 
   if (isfinite(row->kf_k_kg_mol)) {
     r->kf_k_kg_mol = row->kf_k_kg_mol;
@@ -610,10 +689,25 @@ static void choose_kf(const struct ff_series *s, const struct ff_sheet *sh,
     snprintf(r->kf_from, sizeof r->kf_from, "run %s", row->run);
   } else if (row->role != FF_SHEET_STANDARD
              && (cal = kfcal_of(s, r->solvent->name)) != NULL) {
-    r->kf_k_kg_mol = cal->kf_k_kg_mol;
-    r->u_kf_k_kg_mol = cal->u_kf_k_kg_mol;
-    r->kf_source = FF_KF_STANDARD;
-    snprintf(r->kf_from, sizeof r->kf_from, "%s", cal->runs);
+    /* A probe's gain error scales every depression it reads: its own
+     * standards calibrate it; the pool of other probes only on average. */
+    own = row->probe[0] == '\0' ? NULL
+          : find_cal(s->kfcal_probe, s->n_kfcal_probe, r->solvent->name,
+                     row->probe);
+    if (own != NULL) {
+      use_cal(r, own);
+      snprintf(r->kf_probe, sizeof r->kf_probe, "%s", own->probe);
+      snprintf(r->kf_from, sizeof r->kf_from, "%s on probe %s", own->runs,
+               own->probe);
+    } else if (row->probe[0] != '\0') {
+      use_cal(r, cal);
+      r->flags |= FF_SERIES_RUN_KF_OTHER_PROBES;
+      snprintf(r->kf_from, sizeof r->kf_from, "%s, pooled: no standard on "
+               "probe %s", cal->runs, row->probe);
+    } else {
+      use_cal(r, cal);
+      snprintf(r->kf_from, sizeof r->kf_from, "%s", cal->runs);
+    }
   } else {
     r->kf_k_kg_mol = r->solvent->kf_k_kg_mol;
     r->u_kf_k_kg_mol = 0;     /* the table's value taken as exact */
@@ -639,45 +733,69 @@ static void calibrate(const struct ff_sheet *sh, struct ff_series_run *r)
   r->u_kf_cal_k_kg_mol = kf * rel;
 }
 
+/* Adds standard r to the calibration of (solvent, probe) in *v, made the
+ * first time: sums of w Kf and of w until finish_kfcal. */
+static int add_standard(struct ff_series_kfcal **v, size_t *n,
+                        const struct ff_sheet *sh,
+                        const struct ff_series_run *r, const char *probe)
+{
+  struct ff_series_kfcal *c;
+
+  c = (struct ff_series_kfcal *)find_cal(*v, *n, r->solvent->name, probe);
+  if (c == NULL) {
+    struct ff_series_kfcal *bigger = realloc(*v, (*n + 1) * sizeof *bigger);
+    if (bigger == NULL)
+      return FF_EIO;
+    *v = bigger;
+    c = &bigger[(*n)++];
+    memset(c, 0, sizeof *c);
+    snprintf(c->solvent, sizeof c->solvent, "%s", r->solvent->name);
+    snprintf(c->probe, sizeof c->probe, "%s", probe);
+    c->kf_k_kg_mol = 0;       /* running sum of w Kf until the end */
+    c->u_kf_k_kg_mol = 0;     /* running sum of w */
+  }
+  /* Inverse-variance weights; u = 0 cannot happen (u(dT) > 0) but a
+   * zero weight sum would be caught below. */
+  double w = 1.0 / (r->u_kf_cal_k_kg_mol * r->u_kf_cal_k_kg_mol);
+  if (!isfinite(w))
+    w = 1e12;
+  c->kf_k_kg_mol += w * r->kf_cal_k_kg_mol;
+  c->u_kf_k_kg_mol += w;
+  size_t used = strlen(c->runs);
+  snprintf(c->runs + used, sizeof c->runs - used, "%s%s", used ? "+" : "",
+           sh->row[r->row].run);
+  c->n++;
+  return FF_OK;
+}
+
+static void finish_kfcal(struct ff_series_kfcal *v, size_t n)
+{
+  for (size_t k = 0; k < n; k++) {
+    double sw = v[k].u_kf_k_kg_mol;
+    v[k].kf_k_kg_mol /= sw;
+    v[k].u_kf_k_kg_mol = 1.0 / sqrt(sw);
+  }
+}
+
+/* Every good standard joins its solvent's pool (as without probes) and,
+ * when it gives a probe id, the calibration of that probe as well. */
 static int collect_kfcal(struct ff_series *s, const struct ff_sheet *sh)
 {
   for (size_t k = 0; k < s->n_runs; k++) {
-    struct ff_series_run *r = &s->runs[k];
-    struct ff_series_kfcal *c;
+    const struct ff_series_run *r = &s->runs[k];
+    const struct ff_sheet_row *row = &sh->row[r->row];
 
-    if (sh->row[r->row].role != FF_SHEET_STANDARD || r->status != FF_OK)
+    if (row->role != FF_SHEET_STANDARD || r->status != FF_OK)
       continue;
-    c = (struct ff_series_kfcal *)kfcal_of(s, r->solvent->name);
-    if (c == NULL) {
-      struct ff_series_kfcal *v = realloc(s->kfcal,
-                                          (s->n_kfcal + 1) * sizeof *v);
-      if (v == NULL)
-        return FF_EIO;
-      s->kfcal = v;
-      c = &s->kfcal[s->n_kfcal++];
-      memset(c, 0, sizeof *c);
-      snprintf(c->solvent, sizeof c->solvent, "%s", r->solvent->name);
-      c->kf_k_kg_mol = 0;     /* running sum of w Kf until the end */
-      c->u_kf_k_kg_mol = 0;   /* running sum of w */
-    }
-    /* Inverse-variance weights; u = 0 cannot happen (u(dT) > 0) but a
-     * zero weight sum would be caught below. */
-    double w = 1.0 / (r->u_kf_cal_k_kg_mol * r->u_kf_cal_k_kg_mol);
-    if (!isfinite(w))
-      w = 1e12;
-    c->kf_k_kg_mol += w * r->kf_cal_k_kg_mol;
-    c->u_kf_k_kg_mol += w;
-    size_t used = strlen(c->runs);
-    snprintf(c->runs + used, sizeof c->runs - used, "%s%s", used ? "+" : "",
-             sh->row[r->row].run);
-    c->n++;
+    if (add_standard(&s->kfcal, &s->n_kfcal, sh, r, "") != FF_OK)
+      return FF_EIO;
+    if (row->probe[0] != '\0'
+        && add_standard(&s->kfcal_probe, &s->n_kfcal_probe, sh, r,
+                        row->probe) != FF_OK)
+      return FF_EIO;
   }
-  for (size_t k = 0; k < s->n_kfcal; k++) {
-    struct ff_series_kfcal *c = &s->kfcal[k];
-    double sw = c->u_kf_k_kg_mol;
-    c->kf_k_kg_mol /= sw;
-    c->u_kf_k_kg_mol = 1.0 / sqrt(sw);
-  }
+  finish_kfcal(s->kfcal, s->n_kfcal);
+  finish_kfcal(s->kfcal_probe, s->n_kfcal_probe);
   return FF_OK;
 }
 
@@ -780,6 +898,7 @@ int ff_series_run(const struct ff_sheet *sheet, const struct ff_series_opts *o,
       continue;
     }
     r->is_water = strcmp(r->solvent->name, "water") == 0;
+    check_blank_probe(sheet, r);
     r->particles_known = ff_series_particles(row, &r->particles,
                                              r->particles_how,
                                              sizeof r->particles_how);
@@ -883,6 +1002,7 @@ void ff_series_release(struct ff_series *s)
   free(s->solutes);
   free(s->unknowns);
   free(s->kfcal);
+  free(s->kfcal_probe);
   free(s->ds);
   free(s->runs);
   memset(s, 0, sizeof *s);

@@ -43,14 +43,38 @@ static json_t *pair(double a, double b)
   return v;
 }
 
-static json_t *flags_json(unsigned flags)
+/* The event's quality flags, then the run's own warnings (series.h). */
+static json_t *flags_json(unsigned flags, unsigned run_flags)
 {
   json_t *v = json_array();
 
   for (unsigned b = 0; b < FF_FLAG_COUNT; b++)
     if (flags & (1u << b))
       json_array_append_new(v, ff_json_str(ff_flag_name(1u << b)));
+  for (unsigned b = 0; b < FF_SERIES_RUN_FLAG_COUNT; b++)
+    if (run_flags & (1u << b))
+      json_array_append_new(v, ff_json_str(ff_series_run_flag_name(1u << b)));
   return v;
+}
+
+/* The sentences behind the run's warnings, in flag order. */
+static json_t *warnings_json(const struct ff_series *s,
+                             const struct ff_series_run *r)
+{
+  json_t *v = json_array();
+  char note[512];
+
+  for (unsigned b = 0; b < FF_SERIES_RUN_FLAG_COUNT; b++)
+    if (ff_series_run_note(s, r, 1u << b, note, sizeof note)[0])
+      json_array_append_new(v, ff_json_str(note));
+  return v;
+}
+
+/* Probe keys appear only when the sheet has a 'probe' column, so output
+ * of sheets without one stays as it was. */
+static int has_probes(const struct ff_series *s)
+{
+  return s->sheet->col[FF_SC_PROBE] != 0;
 }
 
 /* Numbers of a run; everything NaN (null) when the run failed, so a failed
@@ -69,6 +93,8 @@ static json_t *run_json(const struct ff_series *s,
   json_object_set_new(o, "line", json_integer((json_int_t)row->line));
   ff_json_set_str(o, "file", row->file);
   ff_json_set_str(o, "channel", row->channel);
+  if (has_probes(s))
+    ff_json_set_str(o, "probe", row->probe[0] ? row->probe : NULL);
   if (row->cycle == FF_SHEET_CYCLE_LAST)
     ff_json_set_str(o, "cycle", "last");
   else
@@ -85,7 +111,9 @@ static json_t *run_json(const struct ff_series *s,
                   ? ff_method_name(r->event.method) : NULL);
   NUM("supercooling_k", r->has_event ? r->event.supercooling_k : NAN);
   json_object_set_new(o, "flags", flags_json(r->has_event ? r->event.flags
-                                                          : 0));
+                                                          : 0, r->flags));
+  if (has_probes(s))
+    json_object_set_new(o, "warnings", warnings_json(s, r));
   NUM("blank_freezing_point_c", r->tf_blank_c);
   NUM("depression_observed_k", r->depression_obs_k);
   NUM("frozen_fraction", r->frozen_fraction);
@@ -102,6 +130,8 @@ static json_t *run_json(const struct ff_series *s,
   ff_json_set_str(o, "kf_source", ok && r->kf_source != FF_KF_NONE
                   ? ff_kf_source_name(r->kf_source) : NULL);
   ff_json_set_str(o, "kf_from", ok && r->kf_from[0] ? r->kf_from : NULL);
+  if (has_probes(s))
+    ff_json_set_str(o, "kf_probe", ok && r->kf_probe[0] ? r->kf_probe : NULL);
   NUM("ideal_depression_k", r->th.ideal_depression_k);
   NUM("vant_hoff_i", r->th.vant_hoff_i);
   NUM("u_vant_hoff_i", r->th.u_vant_hoff_i);
@@ -294,6 +324,20 @@ static json_t *repl_json(const struct ff_series *s,
   return o;
 }
 
+/* One Kf calibration; with_probe adds the probe id after the solvent. */
+static json_t *kfcal_json(const struct ff_series_kfcal *c, int with_probe)
+{
+  json_t *o = json_object();
+
+  ff_json_set_str(o, "solvent", c->solvent);
+  if (with_probe)
+    ff_json_set_str(o, "probe", c->probe);
+  ff_json_set_num(o, "kf_k_kg_mol", c->kf_k_kg_mol);
+  ff_json_set_num(o, "u_kf_k_kg_mol", c->u_kf_k_kg_mol);
+  ff_json_set_str(o, "standards", c->runs);
+  return o;
+}
+
 json_t *ff_series_to_json(const struct ff_series *s)
 {
   json_t *root = json_object(), *runs = json_array(), *sol = json_array();
@@ -312,20 +356,20 @@ json_t *ff_series_to_json(const struct ff_series *s)
   ff_json_set_str(root, "caution", CAUTION);
   for (size_t k = 0; k < s->n_runs; k++)
     json_array_append_new(runs, run_json(s, &s->runs[k]));
-  for (size_t k = 0; k < s->n_kfcal; k++) {
-    json_t *c = json_object();
-    ff_json_set_str(c, "solvent", s->kfcal[k].solvent);
-    ff_json_set_num(c, "kf_k_kg_mol", s->kfcal[k].kf_k_kg_mol);
-    ff_json_set_num(c, "u_kf_k_kg_mol", s->kfcal[k].u_kf_k_kg_mol);
-    ff_json_set_str(c, "standards", s->kfcal[k].runs);
-    json_array_append_new(cal, c);
-  }
+  for (size_t k = 0; k < s->n_kfcal; k++)
+    json_array_append_new(cal, kfcal_json(&s->kfcal[k], 0));
   for (size_t k = 0; k < s->n_solutes; k++)
     json_array_append_new(sol, solute_json(s, &s->solutes[k]));
   for (size_t k = 0; k < s->n_unknowns; k++)
     json_array_append_new(unk, unknown_json(s, &s->unknowns[k]));
   json_object_set_new(root, "runs", runs);
   json_object_set_new(root, "kf_calibrations", cal);
+  if (has_probes(s)) {
+    json_t *pc = json_array();
+    for (size_t k = 0; pc != NULL && k < s->n_kfcal_probe; k++)
+      json_array_append_new(pc, kfcal_json(&s->kfcal_probe[k], 1));
+    json_object_set_new(root, "kf_calibrations_by_probe", pc);
+  }
   json_object_set_new(root, "solutes", sol);
   json_object_set_new(root, "unknowns", unk);
   {

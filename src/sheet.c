@@ -36,7 +36,7 @@ static const char *const col_names[FF_SHEET_NCOLS] = {
   "run", "file", "channel", "cycle", "role", "solvent", "solvent_g",
   "solute", "solute_g", "molality", "molar_mass", "formula", "particles",
   "hydrate_waters", "kf", "blank", "note", "z_plus", "z_minus",
-  "balance_res_g", "thermo_res_k", "u_kf", "method"
+  "balance_res_g", "thermo_res_k", "u_kf", "method", "probe"
 };
 
 /* Other spellings accepted in a header (units written out). */
@@ -49,6 +49,7 @@ static const struct { const char *alias; enum ff_sheet_col c; } aliases[] = {
   { "u_kf_k_kg_mol", FF_SC_U_KF },
   { "comment", FF_SC_NOTE },
   { "notes", FF_SC_NOTE },
+  { "probe_id", FF_SC_PROBE },
 };
 
 static const char *const role_names[] = { "blank", "sample", "unknown",
@@ -389,7 +390,8 @@ static int parse_row(struct ff_sheet *s, struct ff_sheet_row *r,
       || copy_text(s, r, rec, FF_SC_SOLUTE, r->solute, sizeof r->solute, d)
       || copy_text(s, r, rec, FF_SC_FORMULA, r->formula, sizeof r->formula, d)
       || copy_text(s, r, rec, FF_SC_BLANK, r->blank, sizeof r->blank, d)
-      || copy_text(s, r, rec, FF_SC_NOTE, r->note, sizeof r->note, d))
+      || copy_text(s, r, rec, FF_SC_NOTE, r->note, sizeof r->note, d)
+      || copy_text(s, r, rec, FF_SC_PROBE, r->probe, sizeof r->probe, d))
     return FF_EINPUT;
 
   st = get_number(s, r, rec, FF_SC_SOLVENT_G, 0, 0, SOLVENT_G_MAX, "g",

@@ -75,7 +75,11 @@ struct ff_series_run {
   /* Kf used. */
   double kf_k_kg_mol, u_kf_k_kg_mol;
   enum ff_kf_source kf_source;
-  char kf_from[128];           /* standard run ids or solvent name */
+  char kf_from[256];           /* standard run ids or solvent name; with a
+                                  probe id: "S1 on probe P1", or "S1+S2,
+                                  pooled: no standard on probe P3" */
+  char kf_probe[64];           /* probe whose own standards gave Kf; "" */
+  unsigned flags;              /* FF_SERIES_RUN_* warnings (numbers kept) */
   double kf_cal_k_kg_mol;      /* standards: Kf this run gives, dT/(nu m) */
   double u_kf_cal_k_kg_mol;
 
@@ -95,9 +99,22 @@ struct ff_series_run {
   double osmolality_osmol_kg;  /* depression / Kf, every role with a blank */
 };
 
-/* Kf calibrated from the standards of one solvent. */
+/*
+ * Run warnings (ff_series_run.flags): the numbers are computed all the
+ * same, the flag says why they may be off. Both need probe ids, so a sheet
+ * without a 'probe' column never raises them.
+ */
+#define FF_SERIES_RUN_BLANK_OTHER_PROBE 1u /* run and blank give different
+                                              probe ids: offsets differ */
+#define FF_SERIES_RUN_KF_OTHER_PROBES 2u   /* Kf from standards pooled over
+                                              other probes: none on this */
+#define FF_SERIES_RUN_FLAG_COUNT 2
+
+/* Kf calibrated from the standards of one solvent, or of one solvent on one
+ * probe (ff_series.kfcal_probe). */
 struct ff_series_kfcal {
   char solvent[64];
+  char probe[64];              /* "" in ff_series.kfcal (pooled) */
   size_t n;                    /* standards used */
   double kf_k_kg_mol, u_kf_k_kg_mol; /* weighted mean */
   char runs[128];              /* their run ids */
@@ -188,7 +205,10 @@ struct ff_series {
   size_t n_unknowns;
   struct ff_series_unknown *unknowns;
   size_t n_kfcal;
-  struct ff_series_kfcal *kfcal;
+  struct ff_series_kfcal *kfcal;       /* per solvent, every probe pooled */
+  size_t n_kfcal_probe;
+  struct ff_series_kfcal *kfcal_probe; /* per solvent and probe id: the
+                                          standards that give a probe id */
   size_t n_ds;
   struct ff_dataset **ds;              /* each data file read once, owned */
   size_t n_failed;                     /* runs without a result */
@@ -196,6 +216,16 @@ struct ff_series {
   struct ff_series_repl *repl;         /* of their first runs */
 };
 #define FF_SERIES_INIT { 0 }
+
+/* "blank_other_probe", "kf_other_probes"; "?" for anything else. */
+const char *ff_series_run_flag_name(unsigned flag);
+
+/* The sentence behind one flag of r (e.g. "the blank was measured on probe
+ * P1, this run on probe P2: their calibration offsets do not cancel") into
+ * buf (n bytes); "" when r does not carry flag. Returns buf. */
+const char *ff_series_run_note(const struct ff_series *s,
+                               const struct ff_series_run *r, unsigned flag,
+                               char *buf, size_t n);
 
 /*
  * Runs the pipeline over every row of sheet (rows the reader rejected keep

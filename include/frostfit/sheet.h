@@ -24,7 +24,7 @@ enum ff_sheet_col {
   FF_SC_MOLALITY, FF_SC_MOLAR_MASS, FF_SC_FORMULA, FF_SC_PARTICLES,
   FF_SC_HYDRATE_WATERS, FF_SC_KF, FF_SC_BLANK, FF_SC_NOTE, FF_SC_Z_PLUS,
   FF_SC_Z_MINUS, FF_SC_BALANCE_RES_G, FF_SC_THERMO_RES_K, FF_SC_U_KF,
-  FF_SC_METHOD, FF_SHEET_NCOLS
+  FF_SC_METHOD, FF_SC_PROBE, FF_SHEET_NCOLS
 };
 
 #define FF_SHEET_CYCLE_LAST 0u   /* cycle "last" */
@@ -61,6 +61,9 @@ struct ff_sheet_row {
   double balance_res_g;        /* balance resolution; NaN = default */
   double thermo_res_k;         /* thermometer resolution; NaN = none added */
   enum ff_method method;       /* how to read the freezing point; auto */
+  char probe[64];              /* id of the thermometer probe, e.g. "P1"
+                                  (trimmed, at most 63 bytes); "" = not
+                                  given or no 'probe' column */
   /* Filled by ff_sheet_check from molar_mass / formula / hydrate_waters: */
   double m_anhydrous_g_mol;    /* M of the solute without hydrate water; NaN */
   double waters;               /* hydrate waters per unit used (0 if none) */

@@ -175,9 +175,39 @@ static void flags_text(const struct ff_series_run *r, char *buf, size_t n)
   if (r->correction_applied && used + 20 < n)
     used += (size_t)snprintf(buf + used, n - used, "%sfrozen %.1f%%",
                              used ? "," : "", 100 * r->frozen_fraction);
-  if (r->kf_source == FF_KF_STANDARD || r->kf_source == FF_KF_SHEET)
-    snprintf(buf + used, n - used, "%skf:%s", used ? "," : "",
-             ff_kf_source_name(r->kf_source));
+  if ((r->kf_source == FF_KF_STANDARD || r->kf_source == FF_KF_SHEET)
+      && used + 20 < n)
+    used += (size_t)snprintf(buf + used, n - used, "%skf:%s",
+                             used ? "," : "",
+                             ff_kf_source_name(r->kf_source));
+  for (unsigned b = 0; b < FF_SERIES_RUN_FLAG_COUNT; b++)
+    if (r->flags & (1u << b)) {
+      const char *name = ff_series_run_flag_name(1u << b);
+      if (used + strlen(name) + 2 >= n)
+        return;
+      used += (size_t)snprintf(buf + used, n - used, "%s%s",
+                               used ? "," : "", name);
+    }
+}
+
+/* The sentences behind the runs' own warnings (series.h), below the runs
+ * table. Nothing when no run has one (always so without probe ids). */
+static void print_warnings(const struct ff_series *s)
+{
+  char note[512];
+  int any = 0;
+
+  for (size_t k = 0; k < s->n_runs; k++)
+    for (unsigned b = 0; b < FF_SERIES_RUN_FLAG_COUNT; b++) {
+      if (!ff_series_run_note(s, &s->runs[k], 1u << b, note,
+                              sizeof note)[0])
+        continue;
+      if (!any)
+        printf("\nwarnings (the numbers above are computed all the same)\n");
+      any = 1;
+      printf("  %s: %s: %s\n", s->sheet->row[s->runs[k].row].run,
+             ff_series_run_flag_name(1u << b), note);
+    }
 }
 
 static void print_runs(const struct ff_series *s)
@@ -320,6 +350,13 @@ static void print_kf(const struct ff_series *s)
            pm(a, sizeof a, s->kfcal[k].kf_k_kg_mol,
               s->kfcal[k].u_kf_k_kg_mol), s->kfcal[k].n,
            s->kfcal[k].n == 1 ? "" : "s", s->kfcal[k].runs);
+  for (size_t k = 0; k < s->n_kfcal_probe; k++)
+    printf("  calibration: %s on probe %s Kf = %s K kg/mol from %zu "
+           "standard%s (%s)\n", s->kfcal_probe[k].solvent,
+           s->kfcal_probe[k].probe,
+           pm(a, sizeof a, s->kfcal_probe[k].kf_k_kg_mol,
+              s->kfcal_probe[k].u_kf_k_kg_mol), s->kfcal_probe[k].n,
+           s->kfcal_probe[k].n == 1 ? "" : "s", s->kfcal_probe[k].runs);
 }
 
 static void print_solute(const struct ff_series_solute *g)
@@ -447,6 +484,7 @@ static void print_table(const struct ff_series *s)
   printf("series %s: %zu run%s, %zu without a result\n\n", s->sheet->path,
          s->n_runs, s->n_runs == 1 ? "" : "s", s->n_failed);
   print_runs(s);
+  print_warnings(s);
   print_replicates(s);
   print_mc(s);
   print_kf(s);
@@ -944,6 +982,25 @@ static int load_tables(const struct opts *o, struct ff_solvent_table *t,
   return FF_OK;
 }
 
+/* A blank on another probe is a problem with the measurement itself:
+ * always on stderr. Kf pooled over other probes is a note (--quiet). */
+static void warn_runs(const struct opts *o, const struct ff_series *s)
+{
+  char note[512];
+
+  for (size_t k = 0; k < s->n_runs; k++) {
+    const struct ff_sheet_row *row = &s->sheet->row[s->runs[k].row];
+    for (unsigned b = 0; b < FF_SERIES_RUN_FLAG_COUNT; b++) {
+      unsigned flag = 1u << b;
+      if (o->quiet && flag != FF_SERIES_RUN_BLANK_OTHER_PROBE)
+        continue;
+      if (ff_series_run_note(s, &s->runs[k], flag, note, sizeof note)[0])
+        ff_cli_msg("%s:%lu: run '%s': warning: %s", s->sheet->path,
+                   row->line, row->run, note);
+    }
+  }
+}
+
 static void report_rows(const struct ff_sheet *sh)
 {
   char buf[1200];
@@ -1014,6 +1071,7 @@ int ff_cmd_series(int argc, char **argv)
   for (size_t k = 0; k < s.n_runs; k++)
     if (s.runs[k].status != FF_OK && sh.row[k].diag.status == FF_OK)
       ff_cli_msg("%s", ff_diag_format(&s.runs[k].diag, buf, sizeof buf));
+  warn_runs(&o, &s);
   for (size_t k = 0; k < s.n_solutes; k++) {
     const struct ff_series_solute *g = &s.solutes[k];
     if (g->status == FF_OK)
