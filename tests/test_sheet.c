@@ -199,6 +199,13 @@ static const struct bad_case bad_cases[] = {
     5, "expected 'last'" },
   { "run,file,role,solvent,method\nB1,c.csv,blank,water,tangent\n", 2,
     "method", 5, "unknown method 'tangent'" },
+  /* A probe id of 64 bytes, one more than the 63 allowed (constructed). */
+  { "run,file,probe,role,solvent\n"
+    "B1,c.csv,P1,blank,water\n"
+    "B2,c.csv,P1234567890123456789012345678901234567890123456789012345678901"
+    "23,blank,water\n", 3, "probe", 3, "longer than 63" },
+  { "run,file,role,solvent,probe\nB1,c.csv,blank,water,\"P\x01\"\n", 2,
+    "probe", 5, "control character" },
 };
 
 Test(sheet, each_bad_cell_names_line_and_column, .fini = cleanup)
@@ -362,5 +369,44 @@ Test(sheet, bad_role_row_is_never_a_blank, .fini = cleanup)
   cr_expect_str_eq(ff_sheet_role_name(s.row[0].role), "?");
   cr_expect_neq(s.row[1].diag.status, FF_OK,
                 "the sample has no blank to be measured against");
+  ff_sheet_release(&s);
+}
+
+/* The optional probe column: trimmed, empty = not given, 63 bytes fit, its
+ * alias probe_id; without the column every probe is "" (constructed). */
+Test(sheet, probe_column_read, .fini = cleanup)
+{
+  struct ff_sheet s = FF_SHEET_INIT;
+  struct ff_diag d = FF_DIAG_INIT;
+  const char *path = write_sheet(
+    "run,file,role,solvent,Probe\n"
+    "B1,c.csv,blank,water,  P1 \n"
+    "B2,c.csv,blank,water,\n"
+    "B3,c.csv,blank,water,"
+    "P12345678901234567890123456789012345678901234567890123456789012\n");
+
+  cr_assert_eq(ff_sheet_read(path, &s, &d), FF_OK, "%s", d.msg);
+  cr_assert_eq(s.col[FF_SC_PROBE], 5);
+  cr_assert_str_eq(s.ignored, "");
+  cr_expect_str_eq(s.row[0].probe, "P1");
+  cr_expect_str_eq(s.row[1].probe, "");
+  cr_expect_eq(strlen(s.row[2].probe), 63);
+  cr_expect_str_eq(ff_sheet_col_name(FF_SC_PROBE), "probe");
+  ff_sheet_release(&s);
+  cleanup();
+
+  s = (struct ff_sheet)FF_SHEET_INIT;
+  path = write_sheet("run,file,role,solvent,probe_id\nB1,c.csv,blank,water,"
+                     "T7\n");
+  cr_assert_eq(ff_sheet_read(path, &s, &d), FF_OK, "%s", d.msg);
+  cr_expect_str_eq(s.row[0].probe, "T7");
+  ff_sheet_release(&s);
+  cleanup();
+
+  s = (struct ff_sheet)FF_SHEET_INIT;
+  path = write_sheet("run,file,role,solvent\nB1,c.csv,blank,water\n");
+  cr_assert_eq(ff_sheet_read(path, &s, &d), FF_OK, "%s", d.msg);
+  cr_expect_eq(s.col[FF_SC_PROBE], 0);
+  cr_expect_str_eq(s.row[0].probe, "");
   ff_sheet_release(&s);
 }
