@@ -154,3 +154,49 @@ expect_rc 3    # one molality: no fit of the solute
 expect_out '^NaCl +0\.100000 mol/kg +3 +0\.35[0-9]+ \+/- 0\.000[0-9]+ '
 # SL reads cycle 3 again ("last"): the same freeze, not a fourth replicate
 expect_out '^  runs: S1 S2 S3; i 1\.9[0-9]* \+/- '
+
+# Probe ids (tests/data/series/probes.csv, synthetic): Kf per probe from its
+# own standard, the pool with a note for P3 (no standard), and N3's blank on
+# another probe flagged; all values checked in tests/test_series_probe.c.
+CASE="series: Kf per probe and a blank on another probe"
+run "$FF" series "$S/probes.csv"
+expect_rc 0
+expect_out '^N3 +sample .* kf:standard,blank_other_probe,kf_other_probes$'
+expect_out '^N1 +sample .* kf:standard$'
+expect_out 'K kg/mol from standard \(S1 on probe P1\): N1 N5$'
+expect_out 'K kg/mol from standard \(S2 on probe P2\): N2$'
+expect_out 'from standard \(S1\+S2, pooled: no standard on probe P3\): N3$'
+expect_out 'K kg/mol from standard \(S1\+S2\): N4$'
+expect_out '^  calibration: water on probe P2 Kf = 1\.[0-9]+ \+/- 0\.00[0-9]+ K kg/mol from 1 standard \(S2\)$'
+expect_out "^  N3: blank_other_probe: the blank 'W1' was measured on probe P1, this run on probe P3: their calibration offsets do not cancel$"
+expect_err "probes\.csv:15: run 'N3': warning: the blank 'W1' was measured on probe P1"
+run "$FF" series --quiet --json "$S/probes.csv"
+expect_rc 0; expect_json
+expect_err "run 'N3': warning: the blank 'W1'"
+if python3 -c 'import json,sys; d=json.load(open(sys.argv[1]))
+r={x["run"]:x for x in d["runs"]}
+assert r["N1"]["probe"]=="P1" and r["N1"]["kf_probe"]=="P1", r["N1"]
+assert r["W3"]["probe"] is None and r["N4"]["kf_probe"] is None
+assert r["N2"]["kf_from"]=="S2 on probe P2"
+assert r["N3"]["flags"]==["blank_other_probe","kf_other_probes"], r["N3"]
+assert len(r["N3"]["warnings"])==2 and r["N1"]["warnings"]==[]
+assert r["N2"]["flags"]==[] and r["N5"]["flags"]==[]
+p={c["probe"]:c for c in d["kf_calibrations_by_probe"]}
+assert abs(p["P1"]["kf_k_kg_mol"]/p["P2"]["kf_k_kg_mol"]-1.05) < 1e-9
+assert r["N1"]["kf_k_kg_mol"]==p["P1"]["kf_k_kg_mol"]
+assert [c["standards"] for c in d["kf_calibrations"]]==["S1+S2"]
+' "$OUT" 2>"$TMP/py"; then ok; else bad "probe json: $(cat "$TMP/py")"; fi
+
+CASE="series: a probe id longer than 63 bytes is a sheet error"
+cp "$S/water.csv" "$TMP/"
+printf 'run,file,channel,role,solvent,probe\nW,water.csv,1,blank,water,%s\n' \
+  "$(printf 'P%063d' 1)" > "$TMP/longprobe.csv"
+run "$FF" series "$TMP/longprobe.csv"
+expect_rc 2
+expect_err "longprobe\.csv:2:6: column 'probe': text longer than 63 characters"
+
+CASE="series: no probe column, no probe keys"
+run "$FF" series --quiet --json "$S/standard.csv"
+expect_rc 0
+if grep -q '"probe"\|"kf_probe"\|"warnings"\|kf_calibrations_by_probe' "$OUT"
+then bad "probe keys without a probe column"; else ok; fi
