@@ -10,6 +10,7 @@
 #include <string.h>
 #include <strings.h>
 
+#include <gsl/gsl_math.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 
@@ -774,6 +775,41 @@ static void finish_kfcal(struct ff_series_kfcal *v, size_t n)
     double sw = v[k].u_kf_k_kg_mol;
     v[k].kf_k_kg_mol /= sw;
     v[k].u_kf_k_kg_mol = 1.0 / sqrt(sw);
+    v[k].birge_ratio = NAN;
+  }
+}
+
+/*
+ * Standards that disagree beyond their stated u (two probes with different
+ * gain errors pooled, a wrong mass) must not leave the pooled Kf with the
+ * small u of the weighted mean: chi2 of their Kf about it gives the Birge
+ * ratio R = sqrt(chi2 / (n - 1)), and u is multiplied by R when R > 1, as
+ * the solute fits scale their covariance (common practice; R. T. Birge,
+ * Phys. Rev. 40 (1932) 207, from memory).
+ */
+static void scatter_kfcal(struct ff_series_kfcal *v, size_t n,
+                          const struct ff_series *s, const struct ff_sheet *sh,
+                          int by_probe)
+{
+  for (size_t k = 0; k < n; k++) {
+    double chi2 = 0.0;
+
+    if (v[k].n < 2)
+      continue;
+    for (size_t j = 0; j < s->n_runs; j++) {
+      const struct ff_series_run *r = &s->runs[j];
+      const struct ff_sheet_row *row = &sh->row[r->row];
+
+      if (row->role != FF_SHEET_STANDARD || r->status != FF_OK
+          || strcasecmp(r->solvent->name, v[k].solvent) != 0
+          || (by_probe && !same_probe(v[k].probe, row->probe)))
+        continue;
+      chi2 += gsl_pow_2((r->kf_cal_k_kg_mol - v[k].kf_k_kg_mol)
+                        / r->u_kf_cal_k_kg_mol);
+    }
+    v[k].birge_ratio = sqrt(chi2 / (double)(v[k].n - 1));
+    if (v[k].birge_ratio > 1.0)
+      v[k].u_kf_k_kg_mol *= v[k].birge_ratio;
   }
 }
 
@@ -796,6 +832,8 @@ static int collect_kfcal(struct ff_series *s, const struct ff_sheet *sh)
   }
   finish_kfcal(s->kfcal, s->n_kfcal);
   finish_kfcal(s->kfcal_probe, s->n_kfcal_probe);
+  scatter_kfcal(s->kfcal, s->n_kfcal, s, sh, 0);
+  scatter_kfcal(s->kfcal_probe, s->n_kfcal_probe, s, sh, 1);
   return FF_OK;
 }
 

@@ -334,6 +334,7 @@ static json_t *kfcal_json(const struct ff_series_kfcal *c, int with_probe)
     ff_json_set_str(o, "probe", c->probe);
   ff_json_set_num(o, "kf_k_kg_mol", c->kf_k_kg_mol);
   ff_json_set_num(o, "u_kf_k_kg_mol", c->u_kf_k_kg_mol);
+  ff_json_set_num(o, "birge_ratio", c->birge_ratio);   /* null: n < 2 */
   ff_json_set_str(o, "standards", c->runs);
   return o;
 }

@@ -4,6 +4,7 @@
  * Sheet: tests/data/series/probes.csv on the simulated curves of water.csv
  * (tests/data/series/make.sh). */
 #include <math.h>
+#include <gsl/gsl_math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -123,6 +124,24 @@ Test(series_probe, kf_from_the_runs_own_probe)
   cr_expect_str_eq(pool->probe, "");
   expect_rel(pool->kf_k_kg_mol, p1->kf_k_kg_mol * (1 + GAIN_RATIO)
              / (1 + GAIN_RATIO * GAIN_RATIO), "pooled Kf");
+  /* The two standards disagree by many u: the pool's u is the weighted
+   * mean's 1/sqrt(sum w) times the Birge ratio sqrt(chi2 / (2 - 1)),
+   * written out here from the standards' own Kf and u. One standard: no
+   * ratio, no scaling. */
+  {
+    double w1 = 1.0 / gsl_pow_2(s1->u_kf_cal_k_kg_mol);
+    double w2 = 1.0 / gsl_pow_2(s2->u_kf_cal_k_kg_mol);
+    double mean = (w1 * s1->kf_cal_k_kg_mol + w2 * s2->kf_cal_k_kg_mol)
+                  / (w1 + w2);
+    double chi2 = w1 * gsl_pow_2(s1->kf_cal_k_kg_mol - mean)
+                  + w2 * gsl_pow_2(s2->kf_cal_k_kg_mol - mean);
+
+    cr_expect(sqrt(chi2) > 5.0, "constructed to disagree: chi2 %g", chi2);
+    expect_rel(pool->birge_ratio, sqrt(chi2), "Birge ratio");
+    expect_rel(pool->u_kf_k_kg_mol, sqrt(chi2) / sqrt(w1 + w2),
+               "pooled u scaled by the Birge ratio");
+    cr_expect(isnan(p1->birge_ratio) && isnan(p2->birge_ratio));
+  }
 
   /* Samples on P1 and P2 take their own probe's Kf ("p1" is P1). */
   static const struct { const char *id, *probe; } own[] = {

@@ -116,7 +116,10 @@ struct ff_series_kfcal {
   char solvent[64];
   char probe[64];              /* "" in ff_series.kfcal (pooled) */
   size_t n;                    /* standards used */
-  double kf_k_kg_mol, u_kf_k_kg_mol; /* weighted mean */
+  double kf_k_kg_mol, u_kf_k_kg_mol; /* weighted mean; u scaled by the
+                                        Birge ratio when it exceeds 1 */
+  double birge_ratio;          /* sqrt(chi2 / (n - 1)) of the standards'
+                                  Kf about the mean; NaN when n < 2 */
   char runs[128];              /* their run ids */
 };
 

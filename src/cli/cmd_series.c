@@ -310,6 +310,16 @@ static void print_mc(const struct ff_series *s)
 }
 
 /* Kf per run, grouped: runs sharing a value and an origin on one line. */
+
+/* Ends a calibration line: standards that scatter beyond their u say so. */
+static void scatter_note(const struct ff_series_kfcal *c)
+{
+  if (c->birge_ratio > 1.0)
+    printf("; the standards scatter beyond their u: u scaled by the Birge "
+           "ratio %.2f", c->birge_ratio);
+  printf("\n");
+}
+
 static void print_kf(const struct ff_series *s)
 {
   char a[64];
@@ -344,19 +354,23 @@ static void print_kf(const struct ff_series *s)
     printf("\n");
   }
   free(done);
-  for (size_t k = 0; k < s->n_kfcal; k++)
-    printf("  calibration: %s Kf = %s K kg/mol from %zu standard%s (%s)\n",
+  for (size_t k = 0; k < s->n_kfcal; k++) {
+    printf("  calibration: %s Kf = %s K kg/mol from %zu standard%s (%s)",
            s->kfcal[k].solvent,
            pm(a, sizeof a, s->kfcal[k].kf_k_kg_mol,
               s->kfcal[k].u_kf_k_kg_mol), s->kfcal[k].n,
            s->kfcal[k].n == 1 ? "" : "s", s->kfcal[k].runs);
-  for (size_t k = 0; k < s->n_kfcal_probe; k++)
+    scatter_note(&s->kfcal[k]);
+  }
+  for (size_t k = 0; k < s->n_kfcal_probe; k++) {
     printf("  calibration: %s on probe %s Kf = %s K kg/mol from %zu "
-           "standard%s (%s)\n", s->kfcal_probe[k].solvent,
+           "standard%s (%s)", s->kfcal_probe[k].solvent,
            s->kfcal_probe[k].probe,
            pm(a, sizeof a, s->kfcal_probe[k].kf_k_kg_mol,
               s->kfcal_probe[k].u_kf_k_kg_mol), s->kfcal_probe[k].n,
            s->kfcal_probe[k].n == 1 ? "" : "s", s->kfcal_probe[k].runs);
+    scatter_note(&s->kfcal_probe[k]);
+  }
 }
 
 static void print_solute(const struct ff_series_solute *g)
