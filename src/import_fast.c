@@ -492,6 +492,48 @@ static FAST_INLINE double temp_value(const struct ff_fast_in *in, double v,
 }
 
 /*
+ * Stores a parsed row in its slot: its time t in seconds (t_missing: no
+ * time, the row is a hole) and its temperatures y in Celsius (NaN where
+ * missing), with the chunk's and the worker's counters. Both row loops
+ * end here, so they count alike.
+ */
+static FAST_INLINE void store_row(struct worker *w, size_t slot,
+                                  int t_missing, double t, const double *y)
+{
+  struct fast *fs = w->fs;
+  struct chunk *c = w->c;
+  size_t present = 0;
+
+  if (t_missing) {
+    c->rows_no_time++;
+    c->holes++;
+    fs->t[slot] = NAN;
+    return;
+  }
+  fs->t[slot] = t;
+  if (c->have_t && !(t > c->last_t))
+    c->increasing = 0;
+  if (!c->have_t) {
+    c->have_t = 1;
+    c->first_t = t;
+  }
+  c->last_t = t;
+  for (size_t k = 0; k < fs->nch; k++) {
+    double v = y[k];
+    fs->v[k][slot] = v;
+    if (isnan(v)) {
+      w->missing[k]++;
+      continue;
+    }
+    present++;
+    w->lo[k] = v < w->lo[k] ? v : w->lo[k];
+    w->hi[k] = v > w->hi[k] ? v : w->hi[k];
+  }
+  if (present == 0)
+    c->all_missing++;
+}
+
+/*
  * The rest of parse_line() for a row of plain numbers (no clock or ISO
  * times), the common case, at q (the line's start): each cell becomes its
  * value as soon as it is read, the temperatures in Celsius with NaN for a
@@ -505,12 +547,11 @@ static FAST_INLINE const char *parse_plain(struct worker *w, const char *q,
   struct fast *fs = w->fs;
   const struct ff_fast_in *in = fs->in;
   const char delim = in->delimiter, dec = in->decimal;
-  const size_t ncol = in->n_columns, nch = fs->nch;
+  const size_t ncol = in->n_columns;
   const int *cell_of = fs->cell_of;
   const enum ff_temp_unit *units = in->units;
   double *y = w->val + 1;          /* per channel: Celsius or NaN */
-  struct chunk *c = w->c;
-  size_t f = 0, present = 0;
+  size_t f = 0;
   double t = 0.0;
   int t_missing = 0;
 
@@ -552,34 +593,7 @@ static FAST_INLINE const char *parse_plain(struct worker *w, const char *q,
     return NULL;                   /* short: the general reader says so */
   q += *q == '\r' ? 2 : 1;
   w->slot++;
-  if (t_missing) {
-    c->rows_no_time++;
-    c->holes++;
-    fs->t[slot] = NAN;
-    return q;
-  }
-  t *= in->time_scale;
-  fs->t[slot] = t;
-  if (c->have_t && !(t > c->last_t))
-    c->increasing = 0;
-  if (!c->have_t) {
-    c->have_t = 1;
-    c->first_t = t;
-  }
-  c->last_t = t;
-  for (size_t k = 0; k < nch; k++) {
-    double v = y[k];
-    fs->v[k][slot] = v;
-    if (isnan(v)) {
-      w->missing[k]++;
-      continue;
-    }
-    present++;
-    w->lo[k] = v < w->lo[k] ? v : w->lo[k];
-    w->hi[k] = v > w->hi[k] ? v : w->hi[k];
-  }
-  if (present == 0)
-    c->all_missing++;
+  store_row(w, slot, t_missing, t * in->time_scale, y);
   return q;
 }
 
@@ -595,7 +609,7 @@ static FAST_INLINE const char *parse_line(struct worker *w, const char *p)
   const size_t ncol = in->n_columns, nch = fs->nch;
   struct chunk *c = w->c;
   const char *q = p;
-  size_t slot = w->slot, f = 0, present = 0;
+  size_t slot = w->slot, f = 0;
   double t = NAN;
   int t_missing = 0, parts = 0;
 
@@ -676,36 +690,12 @@ static FAST_INLINE const char *parse_line(struct worker *w, const char *p)
     t_missing = 1;
   else
     t = w->val[0] * in->time_scale;
-  if (t_missing) {
-    c->rows_no_time++;
-    c->holes++;
-    fs->t[slot] = NAN;
-    return q;
-  }
-  fs->t[slot] = t;
-  if (fs->parts != NULL)
+  if (!t_missing && fs->parts != NULL)
     fs->parts[slot] = (unsigned char)parts;
-  if (c->have_t && !(t > c->last_t))
-    c->increasing = 0;
-  if (!c->have_t) {
-    c->have_t = 1;
-    c->first_t = t;
-  }
-  c->last_t = t;
-  for (size_t k = 0; k < nch; k++) {
-    double y = w->how[k + 1] == CELL_MISSING ? NAN
-               : temp_value(in, w->val[k + 1], in->units[k]);
-    fs->v[k][slot] = y;
-    if (isnan(y)) {
-      w->missing[k]++;
-      continue;
-    }
-    present++;
-    w->lo[k] = y < w->lo[k] ? y : w->lo[k];
-    w->hi[k] = y > w->hi[k] ? y : w->hi[k];
-  }
-  if (present == 0)
-    c->all_missing++;
+  for (size_t k = 0; k < nch; k++)  /* to Celsius in place, NaN missing */
+    w->val[k + 1] = w->how[k + 1] == CELL_MISSING ? NAN
+                    : temp_value(in, w->val[k + 1], in->units[k]);
+  store_row(w, slot, t_missing, t, w->val + 1);
   return q;
 }
 
