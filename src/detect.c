@@ -1009,6 +1009,19 @@ static void init_event(struct ff_event *e, unsigned cycle, double res)
   }
 }
 
+/* What every event ends with, with or without supercooling: the quality
+ * flags of the channel, the checks across readings, the method chosen. */
+static void finish_event(const struct dctx *c, struct ff_event *e)
+{
+  if (c->sigma > 0.02)
+    e->flags |= FF_FLAG_NOISY;
+  if (c->res >= 0.05)
+    e->flags |= FF_FLAG_COARSE;
+  solvent_check(c, e);
+  cross_check(c, e);
+  choose(c, e);
+}
+
 /* One recalescence: minimum at m, peak at pk, the segment began at seg0. */
 static void recalescence_event(const struct dctx *c, struct ff_event *e,
                                size_t seg0, size_t m, size_t pk,
@@ -1098,13 +1111,7 @@ static void recalescence_event(const struct dctx *c, struct ff_event *e,
              "no freezing branch");
   if (!isfinite(e->frozen_fraction))
     e->frozen_fraction = c->cpl / c->lat * e->recalescence_rise_k;
-  if (c->sigma > 0.02)
-    e->flags |= FF_FLAG_NOISY;
-  if (c->res >= 0.05)
-    e->flags |= FF_FLAG_COARSE;
-  solvent_check(c, e);
-  cross_check(c, e);
-  choose(c, e);
+  finish_event(c, e);
 }
 
 /*
@@ -1269,13 +1276,7 @@ static void break_event(const struct dctx *c, struct ff_event *e, size_t seg0,
   snprintf(e->est[FF_METHOD_INTERSECT].why,
            sizeof e->est[FF_METHOD_INTERSECT].why,
            "no supercooling: the break method is the intersection");
-  if (c->sigma > 0.02)
-    e->flags |= FF_FLAG_NOISY;
-  if (c->res >= 0.05)
-    e->flags |= FF_FLAG_COARSE;
-  solvent_check(c, e);
-  cross_check(c, e);
-  choose(c, e);
+  finish_event(c, e);
 }
 
 /* Scans [from, n) for the next recalescence; returns 1 with m (minimum) and
