@@ -601,15 +601,8 @@ struct ff_dataset *ff_import_file(const char *path,
     goto fail;
   }
   csv_ready = 1;
-  if (try_fast(&r, f, buf, len, eof, &sn) == FF_OK) {
-    csv_free(&r.csv);
-    free(r.chan);
-    free(r.row_v);
-    free(buf);
-    if (f != stdin)
-      fclose(f);
-    return r.ds;
-  }
+  if (try_fast(&r, f, buf, len, eof, &sn) == FF_OK)
+    goto done;                       /* the parallel reader took the file */
   if (feed(&r, buf + sn.data_offset, len - sn.data_offset) != 0)
     goto fail;
   {
@@ -643,6 +636,7 @@ struct ff_dataset *ff_import_file(const char *path,
   st = finish(&r);
   if (st != FF_OK)
     goto fail;
+done:
   csv_free(&r.csv);
   free(r.chan);
   free(r.row_v);
