@@ -201,18 +201,27 @@ static json_t *model_json(const struct ff_series_solute *g,
   return o;
 }
 
+/* The sheet ids of runs idx[0..n) (indices into s->runs), as an array. */
+static json_t *run_ids_json(const struct ff_series *s, const size_t *idx,
+                            size_t n)
+{
+  json_t *a = json_array();
+
+  for (size_t k = 0; a != NULL && k < n; k++)
+    json_array_append_new(a, ff_json_str(s->sheet->row[s->runs[idx[k]].row]
+                                           .run));
+  return a;
+}
+
 static json_t *solute_json(const struct ff_series *s,
                            const struct ff_series_solute *g)
 {
-  json_t *o = json_object(), *models = json_array(), *runs = json_array();
+  json_t *o = json_object(), *models = json_array();
   int ok = g->status == FF_OK;
 
   ff_json_set_str(o, "solute", g->solute);
   ff_json_set_str(o, "solvent", g->solvent);
-  for (size_t k = 0; k < g->n; k++)
-    json_array_append_new(runs, ff_json_str(
-                            s->sheet->row[s->runs[g->runs[k]].row].run));
-  json_object_set_new(o, "runs", runs);
+  json_object_set_new(o, "runs", run_ids_json(s, g->runs, g->n));
   json_object_set_new(o, "particles", g->particles_known
                       ? json_integer(g->particles.nu) : json_null());
   ff_json_set_str(o, "particles_how", g->particles_how);
@@ -268,15 +277,12 @@ static const char *mm_method(enum ff_mm_method m)
 static json_t *unknown_json(const struct ff_series *s,
                             const struct ff_series_unknown *g)
 {
-  json_t *o = json_object(), *runs = json_array();
+  json_t *o = json_object();
   int ok = g->status == FF_OK;
 
   ff_json_set_str(o, "solute", g->solute);
   ff_json_set_str(o, "solvent", g->solvent);
-  for (size_t k = 0; k < g->n; k++)
-    json_array_append_new(runs, ff_json_str(
-                            s->sheet->row[s->runs[g->runs[k]].row].run));
-  json_object_set_new(o, "runs", runs);
+  json_object_set_new(o, "runs", run_ids_json(s, g->runs, g->n));
   ff_json_set_str(o, "status", status_key(g->status));
   json_object_set_new(o, "error", diag_json(&g->diag));
   ff_json_set_num(o, "molar_mass_g_mol", ok ? g->mm.m0_g_mol : NAN);
@@ -292,7 +298,7 @@ static json_t *unknown_json(const struct ff_series *s,
 static json_t *repl_json(const struct ff_series *s,
                          const struct ff_series_repl *g)
 {
-  json_t *o = json_object(), *runs = json_array(), *flags = json_array();
+  json_t *o = json_object(), *flags = json_array();
   char note[256];
 
   ff_json_set_str(o, "role", ff_sheet_role_name(g->role));
@@ -301,10 +307,7 @@ static json_t *repl_json(const struct ff_series *s,
   ff_json_set_num(o, "molality_mol_kg", g->molality_mol_kg);
   ff_json_set_num(o, "concentration_g_kg", g->conc_g_kg);
   json_object_set_new(o, "n", json_integer((json_int_t)g->n));
-  for (size_t k = 0; k < g->n; k++)
-    json_array_append_new(runs, ff_json_str(
-                            s->sheet->row[s->runs[g->runs[k]].row].run));
-  json_object_set_new(o, "runs", runs);
+  json_object_set_new(o, "runs", run_ids_json(s, g->runs, g->n));
   ff_json_set_num(o, "depression_mean_k", g->depression_mean_k);
   ff_json_set_num(o, "depression_sd_k", g->depression_sd_k);
   ff_json_set_num(o, "depression_se_k", g->depression_se_k);
