@@ -491,6 +491,19 @@ static long only_blank(const struct ff_sheet *s, const char *solvent)
   return found;
 }
 
+/* Fails every good run whose blank has failed: it cannot be used either. */
+static void fail_with_bad_blanks(struct ff_sheet *s, struct ff_diag *d)
+{
+  for (size_t k = 0; k < s->n; k++) {
+    struct ff_sheet_row *r = &s->row[k];
+    if (r->diag.status == FF_OK && r->blank_row >= 0
+        && s->row[r->blank_row].diag.status != FF_OK)
+      row_fail(s, r, FF_SC_BLANK, d, "blank '%s' (line %lu) has a problem "
+               "of its own", s->row[r->blank_row].run,
+               s->row[r->blank_row].line);
+  }
+}
+
 static void link_blanks(struct ff_sheet *s, struct ff_diag *d)
 {
   for (size_t k = 0; k < s->n; k++) {
@@ -555,14 +568,7 @@ static void check_loops(struct ff_sheet *s, struct ff_diag *d)
     }
   }
   /* A run whose blank is bad cannot be used either; say so once. */
-  for (size_t k = 0; k < s->n; k++) {
-    struct ff_sheet_row *r = &s->row[k];
-    if (r->diag.status == FF_OK && r->blank_row >= 0
-        && s->row[r->blank_row].diag.status != FF_OK)
-      row_fail(s, r, FF_SC_BLANK, d, "blank '%s' (line %lu) has a problem "
-               "of its own", s->row[r->blank_row].run,
-               s->row[r->blank_row].line);
-  }
+  fail_with_bad_blanks(s, d);
 }
 
 /* ---- header ---- */
@@ -949,14 +955,7 @@ int ff_sheet_check(struct ff_sheet *s, const struct ff_solvent_table *t,
                r->path, strerror(errno));
   }
   /* Runs measured against a blank that just failed fail with it. */
-  for (size_t k = 0; k < s->n; k++) {
-    struct ff_sheet_row *r = &s->row[k];
-    if (r->diag.status == FF_OK && r->blank_row >= 0
-        && s->row[r->blank_row].diag.status != FF_OK)
-      row_fail(s, r, FF_SC_BLANK, d, "blank '%s' (line %lu) has a problem "
-               "of its own", s->row[r->blank_row].run,
-               s->row[r->blank_row].line);
-  }
+  fail_with_bad_blanks(s, d);
   return s->n_bad > bad_before ? FF_EINPUT : FF_OK;
 }
 
