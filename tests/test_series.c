@@ -10,6 +10,7 @@
 #include <gsl/gsl_errno.h>
 
 #include "frostfit/series.h"
+#include "series_fixture.h"
 
 /* Kf of water in datasets/solvents.csv, which the simulator also used:
  * the pipeline must give back what the simulator put in. */
@@ -27,51 +28,15 @@ static const struct { const char *run; double solute_g, i; } nacl[] = {
   { "N3", 0.1461, 1.889 }, { "N4", 0.2922, 1.866 },
 };
 
-struct fixture {
-  struct ff_solvent_table t;
-  struct ff_atomic_table at;
-  struct ff_sheet sh;
-  struct ff_series s;
-  int status;
-  struct ff_diag d;
-};
-
 static void load(struct fixture *f, const char *sheet)
 {
-  struct ff_series_opts o = FF_SERIES_OPTS_DEFAULT;
-  struct ff_diag d = FF_DIAG_INIT;
-
-  gsl_set_error_handler_off();
-  memset(f, 0, sizeof *f);
-  f->sh = (struct ff_sheet)FF_SHEET_INIT;
-  cr_assert_eq(ff_solvent_table_load(&f->t, "datasets/solvents.csv", &d),
-               FF_OK, "%s", d.msg);
-  cr_assert_eq(ff_atomic_table_load(&f->at, "datasets/atomic_weights.csv",
-                                    &d), FF_OK, "%s", d.msg);
-  ff_sheet_read(sheet, &f->sh, &d);
-  cr_assert_gt(f->sh.n, 0, "%s", d.msg);
-  ff_sheet_check(&f->sh, &f->t, &f->at, &d);
-  o.solvents = &f->t;
-  o.atoms = &f->at;
-  f->status = ff_series_run(&f->sh, &o, &f->s, &f->d);
-}
-
-static void unload(struct fixture *f)
-{
-  ff_series_release(&f->s);
-  ff_sheet_release(&f->sh);
-  ff_solvent_table_release(&f->t);
-  ff_atomic_table_release(&f->at);
+  fixture_load(f, sheet, (struct ff_series_opts)FF_SERIES_OPTS_DEFAULT, 0);
 }
 
 static const struct ff_series_run *run(const struct fixture *f,
                                        const char *id)
 {
-  for (size_t k = 0; k < f->s.n_runs; k++)
-    if (strcmp(f->sh.row[f->s.runs[k].row].run, id) == 0)
-      return &f->s.runs[k];
-  cr_assert_fail("no run %s", id);
-  return NULL;
+  return fixture_run(f, id);
 }
 
 Test(series, depressions_and_i_come_back)

@@ -13,6 +13,7 @@
 #include <gsl/gsl_errno.h>
 
 #include "frostfit/series.h"
+#include "series_fixture.h"
 
 /* probes.csv types the molality of standard S2 as 1.05 x that of S1, and
  * both read the same curve against the same blank curve: by construction
@@ -21,56 +22,24 @@
 /* Slack for the floating-point of dT / m and of the weighted sums only. */
 #define TOL 1e-12
 
-struct fixture {
-  struct ff_solvent_table t;
-  struct ff_atomic_table at;
-  struct ff_sheet sh;
-  struct ff_series s;
-  int status;
-  struct ff_diag d;
-};
-
+/* The Monte Carlo is not under test here: no draws. */
 static void load(struct fixture *f, const char *sheet)
 {
   struct ff_series_opts o = FF_SERIES_OPTS_DEFAULT;
-  struct ff_diag d = FF_DIAG_INIT;
 
-  gsl_set_error_handler_off();
-  memset(f, 0, sizeof *f);
-  f->sh = (struct ff_sheet)FF_SHEET_INIT;
-  cr_assert_eq(ff_solvent_table_load(&f->t, "datasets/solvents.csv", &d),
-               FF_OK, "%s", d.msg);
-  cr_assert_eq(ff_atomic_table_load(&f->at, "datasets/atomic_weights.csv",
-                                    &d), FF_OK, "%s", d.msg);
-  cr_assert_eq(ff_sheet_read(sheet, &f->sh, &d), FF_OK, "%s", d.msg);
-  cr_assert_eq(ff_sheet_check(&f->sh, &f->t, &f->at, &d), FF_OK, "%s",
-               d.msg);
-  o.solvents = &f->t;
-  o.atoms = &f->at;
-  o.mc_draws = 0;             /* the Monte Carlo is not under test here */
+  o.mc_draws = 0;
   o.mc_fit_draws = 0;
-  f->status = ff_series_run(&f->sh, &o, &f->s, &f->d);
+  fixture_load(f, sheet, o, 1);
 }
 
-static void unload(struct fixture *f)
-{
-  ff_series_release(&f->s);
-  ff_sheet_release(&f->sh);
-  ff_solvent_table_release(&f->t);
-  ff_atomic_table_release(&f->at);
-}
-
+/* The run with id id, which must have a result. */
 static const struct ff_series_run *run(const struct fixture *f,
                                        const char *id)
 {
-  for (size_t k = 0; k < f->s.n_runs; k++)
-    if (strcmp(f->sh.row[f->s.runs[k].row].run, id) == 0) {
-      cr_assert_eq(f->s.runs[k].status, FF_OK, "%s: %s", id,
-                   f->s.runs[k].diag.msg);
-      return &f->s.runs[k];
-    }
-  cr_assert_fail("no run %s", id);
-  return NULL;
+  const struct ff_series_run *r = fixture_run(f, id);
+
+  cr_assert_eq(r->status, FF_OK, "%s: %s", id, r->diag.msg);
+  return r;
 }
 
 static const struct ff_series_kfcal *probe_cal(const struct fixture *f,
