@@ -8,6 +8,7 @@
 #include <strings.h>
 
 #include <gsl/gsl_cdf.h>
+#include <gsl/gsl_statistics_double.h>
 
 #include "series_impl.h"
 
@@ -18,20 +19,15 @@
  *   w_k = 1/u_k^2, xw = sum(w x)/sum(w), u(xw) = 1/sqrt(sum(w)),
  *   chi2 = sum(w (x - xw)^2) with n - 1 degrees of freedom,
  *   p = Q(chi2 | n - 1) (upper tail), R = sqrt(chi2/(n - 1)) (Birge ratio).
- * Differences from the mean are summed (not sum(x^2) - n mean^2) so the
- * small spread of close replicates is not lost to cancellation.
  */
+
+/* Mean and sample standard deviation (GSL, two-pass about the mean, so the
+ * small spread of close replicates is not lost to cancellation); NaN for
+ * both when either is not finite, sd NaN for one value. */
 static void mean_sd(const double *x, size_t n, double *mean, double *sd)
 {
-  double m = 0, ss = 0;
-
-  for (size_t k = 0; k < n; k++)
-    m += x[k];
-  m /= (double)n;
-  for (size_t k = 0; k < n; k++)
-    ss += (x[k] - m) * (x[k] - m);
-  *mean = m;
-  *sd = n >= 2 ? sqrt(ss / (double)(n - 1)) : NAN;
+  *mean = gsl_stats_mean(x, 1, n);
+  *sd = n >= 2 ? gsl_stats_sd_m(x, 1, n, *mean) : NAN;
   if (!isfinite(*mean) || !isfinite(*sd))
     *mean = *sd = NAN;
 }
